@@ -8,19 +8,24 @@ __version__ = "0.1.0"
 from .errors import (GeometryError, InputError, MeasurementError, ShapeError, SheetError, TracerError,
                      UnitError)
 from .geometry import Part, Section
+from .measurement import Measurement
 from .properties import (PROPERTY_KEYS, PROPERTY_NAMES, Moments, Properties, area_moments, plastic_moduli,
                          section_properties)
+from .result import Result, measure, result_json
 from .shapes import (ALPHA_MAX, SHAPE_KINDS, angle, arc_points, box, channel, i_section, make_shape, rectangle,
                      round_bar, tee, tube)
+from .sheet import parse_sheet, read_sheet, sheet_text, write_sheet
 from .stations import stations_section
 
 __all__ = [
     "__version__",
     "TracerError", "InputError", "GeometryError", "ShapeError", "SheetError", "UnitError", "MeasurementError",
-    "Section", "Part",
+    "Section", "Part", "Measurement",
     "Moments", "Properties", "PROPERTY_KEYS", "PROPERTY_NAMES", "area_moments", "plastic_moduli",
     "section_properties",
+    "Result", "measure", "result_json",
     "ALPHA_MAX", "SHAPE_KINDS", "arc_points", "make_shape", "rectangle", "i_section", "channel", "angle", "tee",
     "round_bar", "tube", "box",
+    "read_sheet", "parse_sheet", "sheet_text", "write_sheet",
     "stations_section",
 ]

@@ -1,0 +1,138 @@
+"""The command line as a user runs it: tables, JSON, units, exit statuses, no half files."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from tracer.properties import PROPERTY_KEYS, section_properties
+from tracer.shapes import i_section
+
+EXAMPLES = Path(__file__).parents[1] / "tracer" / "examples"
+
+
+def run(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "tracer", *args], capture_output=True, text=True, cwd=cwd)
+
+
+def write(tmp_path: Path, name: str, text: str) -> Path:
+    p = tmp_path / name
+    p.write_text(text)
+    return p
+
+
+IPE200 = 'units = "mm"\nname = "IPE 200 as rolled"\n[shape]\nkind = "i-section"\nh = 200\nb = 100\ntw = 5.6\ntf = 8.5\nr = 12\n'
+
+
+def test_help_has_examples():
+    top = run("--help")
+    assert top.returncode == 0 and "measure" in top.stdout and "examples:" in top.stdout
+    sub = run("measure", "--help")
+    assert sub.returncode == 0 and "--json" in sub.stdout and "tracer measure joist.toml --units in" in sub.stdout
+
+
+def test_measure_prints_a_table_with_units_and_the_caution(tmp_path):
+    r = run("measure", str(write(tmp_path, "ipe.toml", IPE200)))
+    assert r.returncode == 0, r.stderr
+    lines = {ln.split()[0]: ln.split() for ln in r.stdout.splitlines() if ln.strip()}
+    # IPE 200: A = 28.48 cm^2, Iy = 1943 cm^4 (EN 10365:2017 tables, from memory).
+    assert lines["A"][1:3] == ["2848.4", "mm^2"]
+    assert lines["Ix"][1:3] == ["19.432e6", "mm^4"]
+    assert "not a design check" in r.stdout and "qualified engineer" in r.stdout
+
+
+def test_json_to_stdout_follows_the_schema(tmp_path):
+    r = run("measure", str(write(tmp_path, "ipe.toml", IPE200)), "--json", "-", "--units", "cm")
+    assert r.returncode == 0, r.stderr
+    doc = json.loads(r.stdout)        # nothing but JSON on standard output
+    assert doc["schema"] == "tracer/result/1"
+    assert doc["tool"]["name"] == "tracer" and doc["name"] == "IPE 200 as rolled"
+    assert doc["units"] == {"length": "cm"}
+    assert list(doc["properties"]) == list(PROPERTY_KEYS)
+    assert doc["properties"]["Ix"]["unit"] == "cm^4" and doc["properties"]["theta"]["unit"] == "deg"
+    assert doc["properties"]["A"]["value"] == pytest.approx(28.48, abs=0.005)   # EN 10365 (from memory)
+    assert doc["source"]["kind"] == "sheet" and len(doc["source"]["sha256"]) == 64
+    assert all("u" not in v for v in doc["properties"].values())   # never a silent zero
+    assert any("no u is reported" in w for w in doc["warnings"])
+
+
+@pytest.mark.parametrize("units,factor", [("mm", 1.0), ("cm", 10.0), ("m", 1000.0), ("in", 25.4)])
+def test_units_of_the_json(tmp_path, units, factor):
+    out = tmp_path / "r.json"
+    r = run("measure", str(write(tmp_path, "ipe.toml", IPE200)), "--json", str(out), "--units", units)
+    assert r.returncode == 0, r.stderr
+    doc = json.loads(out.read_text())
+    ref = section_properties(i_section(h=200, b=100, tw=5.6, tf=8.5, r=12))
+    assert doc["properties"]["Ix"]["value"] == pytest.approx(ref.Ix / factor**4, rel=1e-12)
+    assert doc["properties"]["Zx"]["value"] == pytest.approx(ref.Zx / factor**3, rel=1e-12)
+    assert doc["properties"]["theta"]["value"] == pytest.approx(ref.theta, abs=1e-12)
+    assert f"wrote {out}" in r.stdout
+
+
+def test_align_principal_puts_the_major_axis_on_x(tmp_path):
+    sheet = write(tmp_path, "angle.toml", 'units = "mm"\n[shape]\nkind = "angle"\nh = 150\nb = 90\nt = 10\nr = 12\n')
+    plain = json.loads(run("measure", str(sheet), "--json", "-").stdout)["properties"]
+    r = run("measure", str(sheet), "--json", "-", "--align", "principal")
+    doc = json.loads(r.stdout)
+    p = doc["properties"]
+    assert p["Ix"]["value"] == pytest.approx(plain["I1"]["value"], rel=1e-9)
+    assert p["Iy"]["value"] == pytest.approx(plain["I2"]["value"], rel=1e-9)
+    assert abs(p["Ixy"]["value"]) <= 1e-9 * plain["I1"]["value"] and abs(p["theta"]["value"]) < 1e-7
+    assert doc["source"]["aligned"]["rotation_deg"] == pytest.approx(-plain["theta"]["value"])
+
+
+def test_save_sheet_measures_back_the_same(tmp_path):
+    out = tmp_path / "outline.toml"
+    r = run("measure", str(EXAMPLES / "waney-joist.toml"), "--save-sheet", str(out), "--json", str(tmp_path / "a.json"))
+    assert r.returncode == 0, r.stderr
+    r2 = run("measure", str(out), "--json", "-")
+    a = json.loads((tmp_path / "a.json").read_text())["properties"]
+    b = json.loads(r2.stdout)["properties"]
+    for key in PROPERTY_KEYS:
+        assert b[key]["value"] == pytest.approx(a[key]["value"], rel=1e-9, abs=1e-9), key
+
+
+@pytest.mark.parametrize("example", sorted(p.name for p in EXAMPLES.glob("*.toml")))
+def test_every_bundled_example_runs(example):
+    r = run("measure", str(EXAMPLES / example))
+    assert r.returncode == 0, r.stderr
+    assert "invented example" in r.stdout
+
+
+@pytest.mark.parametrize("text,message", [
+    ('units = "mm"\n[shape]\nkind = "i-section"\nh = 200\nb = 100\ntw = 120\ntf = 8\n',
+     "tw = 120 mm must be less than b = 100 mm"),
+    ('units = "mm"\n[shape]\nkind = "box"\nh = 100\nb = 100\n', "shape.t is missing"),
+    ('units = "furlong"\n', "is not a length unit"),
+    ('units = "mm"\n[outline]\npoints = [[0,0],[10,10],[10,0],[0,10]]\n', "outline crosses itself near point"),
+])
+def test_bad_sheets_exit_2_with_one_plain_line(tmp_path, text, message):
+    out = tmp_path / "r.json"
+    r = run("measure", str(write(tmp_path, "bad.toml", text)), "--json", str(out))
+    assert r.returncode == 2
+    assert message in r.stderr and r.stderr.startswith("tracer: ")
+    assert len(r.stderr.strip().splitlines()) <= 2 and "Traceback" not in r.stderr
+    assert not out.exists() and list(tmp_path.iterdir()) == [tmp_path / "bad.toml"]   # no half output
+
+
+def test_usage_errors_exit_2(tmp_path):
+    assert run("measure", str(tmp_path / "missing.toml")).returncode == 2
+    r = run("measure", str(tmp_path / "photo.jpg"))
+    assert r.returncode == 2 and "no such file" in r.stderr
+    (tmp_path / "photo.jpg").write_bytes(b"\xff\xd8\xff")
+    r = run("measure", str(tmp_path / "photo.jpg"))
+    assert r.returncode == 2 and "section sheets (.toml)" in r.stderr
+    r = run("measure", str(EXAMPLES / "waney-joist.toml"), "--units", "furlong")
+    assert r.returncode == 2 and "invalid choice" in r.stderr
+    r = run("measure", str(EXAMPLES / "waney-joist.toml"), "--json", str(tmp_path / "no" / "dir.json"))
+    assert r.returncode == 2 and "folder does not exist" in r.stderr
+    assert run().returncode == 2
+
+
+def test_debug_shows_the_traceback(tmp_path):
+    r = run("measure", str(write(tmp_path, "bad.toml", 'units = "mm"\n')), "--debug")
+    assert r.returncode != 0 and "Traceback" in r.stderr

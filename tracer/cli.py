@@ -1,0 +1,154 @@
+"""The ``tracer`` command: parses arguments, calls the science modules, prints.
+
+Exit status (DESIGN.md): 0 done; 1 the input was readable but the job could not be done;
+2 bad usage or unreadable input. Errors are one or two plain lines; ``--debug`` shows the
+traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+from pathlib import Path
+from typing import Sequence
+
+from . import __version__
+
+__all__ = ["main"]
+
+_EXAMPLES_DIR = Path(__file__).parent / "examples"
+
+_MAIN_EPILOG = f"""\
+examples:
+  tracer measure tracer/examples/waney-joist.toml     (from a checkout of the project)
+  tracer measure beam.toml --units cm --json beam.json
+  tracer measure --help
+
+A section sheet (.toml) holds caliper or tape readings: units, name, and one of [shape],
+[outline] or [stations]. Example sheets (invented scenarios) are installed in
+{_EXAMPLES_DIR}
+"""
+
+_MEASURE_EPILOG = """\
+examples:
+  tracer measure joist.toml                      table of every property, in mm
+  tracer measure joist.toml --units in           the same in inches
+  tracer measure joist.toml --json -             result JSON on standard output
+  tracer measure joist.toml --json joist.json    table, and the JSON saved to a file
+  tracer measure angle.toml --align principal    properties about the principal axes
+  tracer measure beam.toml --save-sheet beam-outline.toml
+                                                 save the geometry as an editable outline
+
+exit status: 0 done, 1 input readable but not measurable, 2 bad usage or unreadable input.
+Results are for screening only, not a design check.
+"""
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; returns the exit status."""
+    parser = _parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 2
+    try:
+        return args.run(args)
+    except KeyboardInterrupt:
+        print("tracer: stopped", file=sys.stderr)
+        return 130
+    except BrokenPipeError:  # the reader (e.g. head) closed the pipe: nothing is wrong
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
+    except Exception as e:  # noqa: BLE001 - every error becomes one plain line
+        from .errors import TracerError
+
+        if args.debug:
+            raise
+        if isinstance(e, TracerError):
+            print(f"tracer: {e}", file=sys.stderr)
+            return e.exit_status
+        print(f"tracer: internal error: {type(e).__name__}: {e}", file=sys.stderr)
+        print("tracer: please report it with the input file; rerun with --debug for the traceback",
+              file=sys.stderr)
+        return 1
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="tracer",
+        description="Exact section properties of members that no catalogue describes, "
+                    "from caliper readings or a traced outline.",
+        epilog=_MAIN_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    parser.add_argument("--version", action="version", version=f"tracer {__version__}")
+    parser.set_defaults(command=None, debug=False)
+    sub = parser.add_subparsers(title="commands", metavar="COMMAND")
+
+    m = sub.add_parser(
+        "measure",
+        help="section properties of a section sheet",
+        description="Compute area, centroid, second moments, principal axes, elastic and plastic "
+                    "moduli of the section in INPUT and print them as a table.",
+        epilog=_MEASURE_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    m.add_argument("input", metavar="INPUT", help="a section sheet (.toml)")
+    m.add_argument("--json", metavar="PATH", help="write the result JSON to PATH, or to standard output with -")
+    m.add_argument("--units", default="mm", choices=("mm", "cm", "m", "in"),
+                   help="length unit of the table and the JSON (default mm)")
+    m.add_argument("--align", choices=("principal",),
+                   help="turn the section onto its principal axes before reporting")
+    m.add_argument("--save-sheet", metavar="PATH",
+                   help="also write the geometry as an [outline] sheet, to edit by hand and measure again")
+    m.add_argument("--debug", action="store_true", help="show the traceback of an error")
+    m.set_defaults(command="measure", run=_measure)
+    return parser
+
+
+def _measure(args: argparse.Namespace) -> int:
+    from .errors import InputError
+    from .files import write_atomic
+    from .result import measure, result_json
+    from .sheet import read_sheet, sheet_text
+    from .table import format_table
+
+    path = Path(args.input)
+    if path.suffix.lower() != ".toml":
+        if not path.exists():
+            raise InputError(f"{path}: no such file")
+        raise InputError(f"{path}: not a section sheet; this version measures section sheets (.toml), "
+                         "see tracer measure --help")
+    result = measure(read_sheet(path), align=args.align)
+
+    # Everything is computed before anything is written: an error never leaves a half output.
+    outputs: list[tuple[str, str]] = []
+    doc_text = None
+    if args.json is not None:
+        doc_text = json.dumps(result_json(result, units=args.units), indent=2, ensure_ascii=False) + "\n"
+        if args.json != "-":
+            outputs.append((args.json, doc_text))
+    if args.save_sheet:
+        sheet_units = result.measurement.source.get("sheet_units", "mm")
+        outputs.append((args.save_sheet, sheet_text(result.measurement.section, name=result.name,
+                                                    units=sheet_units,
+                                                    uncertainty=dict(result.measurement.uncertainty) or None)))
+    for target, text in outputs:
+        if not Path(target).parent.is_dir():
+            raise InputError(f"{target}: its folder does not exist; create it or choose another path")
+    for target, text in outputs:
+        write_atomic(target, text)
+
+    if args.json == "-":
+        sys.stdout.write(doc_text or "")
+    else:
+        print(format_table(result, units=args.units))
+        for target, _ in outputs:
+            print(f"\n  wrote {target}")
+    return 0
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
