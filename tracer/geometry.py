@@ -75,7 +75,7 @@ class Section:
     (1, 0, 4)
     """
 
-    __slots__ = ("_parts", "_packed")
+    __slots__ = ("_parts", "_packed", "_vertices")
 
     def __init__(self, outline: Sequence[Sequence[float]], holes: Iterable[Sequence[Sequence[float]]] = ()) -> None:
         part = _make_part(outline, list(holes), prefix="")
@@ -121,6 +121,7 @@ class Section:
             _check_parts_apart(parts)
         object.__setattr__(self, "_parts", tuple(parts))
         object.__setattr__(self, "_packed", None)
+        object.__setattr__(self, "_vertices", None)
 
     def __setattr__(self, name: str, value: Any) -> None:
         raise AttributeError("a Section is immutable; its methods return new sections")
@@ -159,6 +160,40 @@ class Section:
             yield part.exterior, False
             for hole in part.holes:
                 yield hole, True
+
+    def vertices(self) -> tuple[np.ndarray, np.ndarray]:
+        """Every ring's vertices laid end to end, without closing points.
+
+        Returns
+        -------
+        xy : ndarray, shape (N, 2)
+            Vertices [mm], ring by ring in the order of :meth:`rings`.
+        starts : ndarray of int
+            Start index of each ring, with N appended.
+
+        This is the vertex order that sensitivities and error models refer to.
+        """
+        if self._vertices is None:
+            rings = [r for r, _ in self.rings()]
+            starts = np.concatenate([[0], np.cumsum([len(r) for r in rings])])
+            xy = np.concatenate(rings)
+            xy.flags.writeable = False
+            starts.flags.writeable = False
+            object.__setattr__(self, "_vertices", (xy, starts))
+        return self._vertices
+
+    def with_vertices(self, xy: np.ndarray) -> Section:
+        """A new section with the same rings but moved vertices (as from :meth:`vertices`) [mm]."""
+        own, starts = self.vertices()
+        xy = np.asarray(xy, dtype=float)
+        if xy.shape != own.shape:
+            raise GeometryError(f"expected {own.shape[0]} vertices, got an array of shape {xy.shape}")
+        rings = iter(np.split(xy, starts[1:-1]))
+        parts = []
+        for p in self._parts:
+            ext = next(rings)
+            parts.append((ext, [next(rings) for _ in p.holes]))
+        return Section.from_parts(parts)
 
     def packed(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """All rings, closed and laid end to end, for vectorised integrals.

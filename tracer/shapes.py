@@ -5,7 +5,9 @@ Every function takes its dimensions as keyword arguments in millimetres and retu
 (DESIGN.md). Impossible dimensions raise :class:`~tracer.errors.ShapeError` naming the
 dimension.
 
-Arcs (root fillets, rounded corners, circles) become polygons by the chord rule below.
+Arcs (root fillets, rounded corners, circles) become polygons by the chord rule below. Every
+builder also takes ``chord_angle`` [rad], the largest chord angle, to make a coarser copy (for
+Monte Carlo draws, whose spread does not depend on it to the digits reported).
 
 Chord rule
 ----------
@@ -54,7 +56,7 @@ CORNERS = ("bottom_left", "bottom_right", "top_right", "top_left")
 
 
 def rectangle(*, b: float, h: float, wane: float | Sequence[float] | Mapping[str, float | Sequence[float]] | None = None,
-              wane_form: str = "round") -> Section:
+              wane_form: str = "round", chord_angle: float | None = None) -> Section:
     """A solid rectangle, with waney (rounded or bevelled) corners as on salvaged timber.
 
     Parameters
@@ -120,10 +122,10 @@ def rectangle(*, b: float, h: float, wane: float | Sequence[float] | Mapping[str
         if used > length:
             raise ShapeError(f"rectangle: the wane on the {name} adds up to {used:.6g} mm, more than its length "
                              f"{length:.6g} mm; reduce the wane")
-    return Section(_corner_polygon(corners, radii, _bevel_legs(corners, bevels)))
+    return Section(_corner_polygon(corners, radii, _bevel_legs(corners, bevels), chord_angle))
 
 
-def i_section(*, h: float, b: float, tw: float, tf: float, r: float = 0.0) -> Section:
+def i_section(*, h: float, b: float, tw: float, tf: float, r: float = 0.0, chord_angle: float | None = None) -> Section:
     """A doubly symmetric I-section with parallel flanges and root fillets (IPE, HE, UB, W).
 
     Parameters
@@ -145,10 +147,10 @@ def i_section(*, h: float, b: float, tw: float, tf: float, r: float = 0.0) -> Se
     pts = [(0, 0), (b, 0), (b, tf), (wr, tf), (wr, h - tf), (b, h - tf), (b, h), (0, h),
            (0, h - tf), (wl, h - tf), (wl, tf), (0, tf)]
     rad = [0, 0, 0, r, r, 0, 0, 0, 0, r, r, 0]
-    return Section(_corner_polygon(np.array(pts, float), np.array(rad, float)))
+    return Section(_corner_polygon(np.array(pts, float), np.array(rad, float), None, chord_angle))
 
 
-def channel(*, h: float, b: float, tw: float, tf: float, r: float = 0.0) -> Section:
+def channel(*, h: float, b: float, tw: float, tf: float, r: float = 0.0, chord_angle: float | None = None) -> Section:
     """A channel with parallel flanges and root fillets (UPE, PFC), web on the left.
 
     Parameters
@@ -168,10 +170,10 @@ def channel(*, h: float, b: float, tw: float, tf: float, r: float = 0.0) -> Sect
     _fits(kind, r, [("b - tw", b - tw), ("h/2 - tf", h / 2 - tf)])
     pts = [(0, 0), (b, 0), (b, tf), (tw, tf), (tw, h - tf), (b, h - tf), (b, h), (0, h)]
     rad = [0, 0, 0, r, r, 0, 0, 0]
-    return Section(_corner_polygon(np.array(pts, float), np.array(rad, float)))
+    return Section(_corner_polygon(np.array(pts, float), np.array(rad, float), None, chord_angle))
 
 
-def angle(*, h: float, b: float, t: float, r: float = 0.0, rt: float = 0.0) -> Section:
+def angle(*, h: float, b: float, t: float, r: float = 0.0, rt: float = 0.0, chord_angle: float | None = None) -> Section:
     """An equal or unequal angle: vertical leg `h` on the left, horizontal leg `b` at the bottom.
 
     Parameters
@@ -194,10 +196,10 @@ def angle(*, h: float, b: float, t: float, r: float = 0.0, rt: float = 0.0) -> S
     _fits(kind, rt, [("t", t)], name="rt")
     pts = [(0, 0), (b, 0), (b, t), (t, t), (t, h), (0, h)]
     rad = [0, 0, rt, r, rt, 0]
-    return Section(_corner_polygon(np.array(pts, float), np.array(rad, float)))
+    return Section(_corner_polygon(np.array(pts, float), np.array(rad, float), None, chord_angle))
 
 
-def tee(*, h: float, b: float, tw: float, tf: float, r: float = 0.0) -> Section:
+def tee(*, h: float, b: float, tw: float, tf: float, r: float = 0.0, chord_angle: float | None = None) -> Section:
     """A tee with the flange on top and root fillets.
 
     Parameters
@@ -218,10 +220,10 @@ def tee(*, h: float, b: float, tw: float, tf: float, r: float = 0.0) -> Section:
     wl, wr = (b - tw) / 2, (b + tw) / 2
     pts = [(wl, 0), (wr, 0), (wr, h - tf), (b, h - tf), (b, h), (0, h), (0, h - tf), (wl, h - tf)]
     rad = [0, 0, r, 0, 0, 0, 0, r]
-    return Section(_corner_polygon(np.array(pts, float), np.array(rad, float)))
+    return Section(_corner_polygon(np.array(pts, float), np.array(rad, float), None, chord_angle))
 
 
-def round_bar(*, d: float) -> Section:
+def round_bar(*, d: float, chord_angle: float | None = None) -> Section:
     """A solid round of diameter `d` [mm].
 
     >>> from tracer.properties import area_moments
@@ -229,18 +231,18 @@ def round_bar(*, d: float) -> Section:
     True
     """
     _positive("round", d=d)
-    return Section(_circle(d / 2, d / 2, d / 2))
+    return Section(_circle(d / 2, d / 2, d / 2, chord_angle))
 
 
-def tube(*, d: float, t: float) -> Section:
+def tube(*, d: float, t: float, chord_angle: float | None = None) -> Section:
     """A circular hollow section: outside diameter `d`, wall thickness `t` [mm]."""
     kind = "tube"
     _positive(kind, d=d, t=t)
     _less(kind, "t", t, "d/2", d / 2)
-    return Section(_circle(d / 2, d / 2, d / 2), [_circle(d / 2, d / 2, d / 2 - t)])
+    return Section(_circle(d / 2, d / 2, d / 2, chord_angle), [_circle(d / 2, d / 2, d / 2 - t, chord_angle)])
 
 
-def box(*, h: float, b: float, t: float, ro: float = 0.0, ri: float = 0.0) -> Section:
+def box(*, h: float, b: float, t: float, ro: float = 0.0, ri: float = 0.0, chord_angle: float | None = None) -> Section:
     """A rectangular hollow section with outer and inner corner radii.
 
     Parameters
@@ -263,7 +265,8 @@ def box(*, h: float, b: float, t: float, ro: float = 0.0, ri: float = 0.0) -> Se
     outer = np.array([(0, 0), (b, 0), (b, h), (0, h)], float)
     inner = np.array([(t, t), (b - t, t), (b - t, h - t), (t, h - t)], float)
     try:
-        return Section(_corner_polygon(outer, np.full(4, ro)), [_corner_polygon(inner, np.full(4, ri))])
+        return Section(_corner_polygon(outer, np.full(4, ro), None, chord_angle),
+                       [_corner_polygon(inner, np.full(4, ri), None, chord_angle)])
     except GeometryError:
         raise ShapeError(f"box: ro = {ro:.6g} mm is too large for ri = {ri:.6g} mm and t = {t:.6g} mm: the corners "
                          "would cut through the wall; ro should be about ri + t") from None
@@ -282,8 +285,10 @@ SHAPE_KINDS: dict[str, tuple] = {
 }
 
 
-def make_shape(kind: str, **dims: object) -> Section:
+def make_shape(kind: str, *, chord_angle: float | None = None, **dims: object) -> Section:
     """Build a parametric section by its sheet name, e.g. ``make_shape("tube", d=168.3, t=8)``.
+
+    `chord_angle` [rad] overrides :data:`ALPHA_MAX` (a coarser copy for Monte Carlo draws).
 
     Raises
     ------
@@ -301,10 +306,10 @@ def make_shape(kind: str, **dims: object) -> Section:
     if unknown:
         allowed = ", ".join(required + optional)
         raise ShapeError(f"{kind}: {unknown[0]!r} is not a dimension of {article(kind)} {kind}; use {allowed}")
-    return builder(**dims)
+    return builder(**dims, chord_angle=chord_angle)
 
 
-def arc_points(cx: float, cy: float, r: float, a0: float, a1: float) -> np.ndarray:
+def arc_points(cx: float, cy: float, r: float, a0: float, a1: float, chord_angle: float | None = None) -> np.ndarray:
     """Points on an arc by the chord rule, both ends included.
 
     Parameters
@@ -315,13 +320,15 @@ def arc_points(cx: float, cy: float, r: float, a0: float, a1: float) -> np.ndarr
         Radius [mm].
     a0, a1 : float
         Start and end angle [rad]; the arc runs from `a0` to `a1` in that sense.
+    chord_angle : float, optional
+        Largest chord angle [rad]; :data:`ALPHA_MAX` by default.
 
     Returns
     -------
     ndarray, shape (n + 1, 2)
         ``n = ceil(|a1 - a0| / ALPHA_MAX)`` chords.
     """
-    n = max(1, math.ceil(abs(a1 - a0) / ALPHA_MAX))
+    n = max(1, math.ceil(abs(a1 - a0) / (chord_angle or ALPHA_MAX)))
     a = np.linspace(a0, a1, n + 1)
     return np.column_stack([cx + r * np.cos(a), cy + r * np.sin(a)])
 
@@ -332,14 +339,15 @@ def article(word: str) -> str:
 
 
 # ---------------------------------------------------------------------------------------------
-def _circle(cx: float, cy: float, r: float) -> np.ndarray:
+def _circle(cx: float, cy: float, r: float, chord_angle: float | None = None) -> np.ndarray:
     # A multiple of 4 chords puts vertices on the four extreme fibres.
-    n = 4 * math.ceil(2 * math.pi / ALPHA_MAX / 4)
+    n = 4 * math.ceil(2 * math.pi / (chord_angle or ALPHA_MAX) / 4)
     a = np.arange(n) * (2 * math.pi / n)
     return np.column_stack([cx + r * np.cos(a), cy + r * np.sin(a)])
 
 
-def _corner_polygon(corners: np.ndarray, radii: np.ndarray, bevels: dict[int, tuple[float, float]] | None = None) -> np.ndarray:
+def _corner_polygon(corners: np.ndarray, radii: np.ndarray, bevels: dict[int, tuple[float, float]] | None = None,
+                    chord_angle: float | None = None) -> np.ndarray:
     """A polygon whose corner i is rounded with radius ``radii[i]`` or cut by a bevel.
 
     ``bevels[i] = (d_prev, d_next)`` cuts corner i from the point `d_prev` along the edge to
@@ -369,7 +377,7 @@ def _corner_polygon(corners: np.ndarray, radii: np.ndarray, bevels: dict[int, tu
         a0 = math.atan2(t1[1] - centre[1], t1[0] - centre[0])
         sweep = math.pi - 2 * half
         turn = np.sign((t1[0] - centre[0]) * (t2[1] - centre[1]) - (t1[1] - centre[1]) * (t2[0] - centre[0]))
-        out.append(arc_points(centre[0], centre[1], r, a0, a0 + turn * sweep))
+        out.append(arc_points(centre[0], centre[1], r, a0, a0 + turn * sweep, chord_angle))
     return np.concatenate(out)
 
 
