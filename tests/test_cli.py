@@ -136,3 +136,58 @@ def test_usage_errors_exit_2(tmp_path):
 def test_debug_shows_the_traceback(tmp_path):
     r = run("measure", str(write(tmp_path, "bad.toml", 'units = "mm"\n')), "--debug")
     assert r.returncode != 0 and "Traceback" in r.stderr
+
+
+UNCERTAIN = IPE200.replace('[shape]', '[uncertainty]\nreading = 0.05\n\n[shape]')
+
+
+def test_json_has_u_on_every_property_and_a_budget(tmp_path):
+    r = run("measure", str(write(tmp_path, "ipe.toml", UNCERTAIN)), "--json", "-")
+    assert r.returncode == 0, r.stderr
+    doc = json.loads(r.stdout)
+    for key, entry in doc["properties"].items():
+        assert "u" in entry and entry["u"] is not None, key
+    assert doc["properties"]["A"]["u"] > 0
+    budget = doc["uncertainty"]["budget"]
+    assert set(budget) == {"A", "Ix", "Iy"}
+    for key, rows in budget.items():
+        assert sum(row["share"] for row in rows) == pytest.approx(1.0)
+        assert {row["input"] for row in rows} == {"shape.h", "shape.b", "shape.tw", "shape.tf", "shape.r"}
+    # Ix of an I-section hangs on its flanges: tf must lead the budget (common practice).
+    assert budget["Ix"][0]["input"] == "shape.tf"
+    assert doc["uncertainty"]["k"] == 1 and doc["uncertainty"]["monte_carlo"]["converged"] is True
+    assert set(doc["uncertainty"]["method"].values()) <= {"linear", "monte carlo"}
+
+
+def test_table_shows_value_plus_minus_U_and_the_budget(tmp_path):
+    r = run("measure", str(write(tmp_path, "ipe.toml", UNCERTAIN)), "--budget")
+    assert r.returncode == 0, r.stderr
+    assert "U = 2u (k = 2" in r.stdout and "value ± U" in r.stdout
+    a_row = next(ln for ln in r.stdout.splitlines() if ln.split()[:1] == ["A"])
+    assert "±" in a_row
+    assert "uncertainty budget" in r.stdout and "shape.tf" in r.stdout
+
+
+def test_characteristic_values(tmp_path):
+    out = tmp_path / "r.json"
+    r = run("measure", str(write(tmp_path, "ipe.toml", UNCERTAIN)), "--characteristic", "--json", str(out))
+    assert r.returncode == 0, r.stderr
+    assert "5th pct" in r.stdout
+    p = json.loads(out.read_text())["properties"]
+    for key in ("A", "Ix", "Iy", "Zx"):
+        # For a normal-ish distribution the 5th percentile sits 1.645 u below the value.
+        assert p[key]["p05"] == pytest.approx(p[key]["value"] - 1.645 * p[key]["u"], abs=0.25 * p[key]["u"])
+
+
+def test_monte_carlo_options_and_reproducibility(tmp_path):
+    sheet = str(write(tmp_path, "ipe.toml", UNCERTAIN))
+    a = json.loads(run("measure", sheet, "--json", "-", "--characteristic").stdout)
+    b = json.loads(run("measure", sheet, "--json", "-", "--characteristic").stdout)
+    assert a == b                                   # a fixed seed: reruns give the same numbers
+    c = json.loads(run("measure", sheet, "--json", "-", "--characteristic", "--random-seed", "7").stdout)
+    assert c["uncertainty"]["monte_carlo"]["seed"] == 7
+    assert c["properties"]["A"]["p05"] != a["properties"]["A"]["p05"]
+    d = json.loads(run("measure", sheet, "--json", "-", "--draws", "500").stdout)
+    assert d["uncertainty"]["monte_carlo"]["draws"] == 500
+    bad = run("measure", sheet, "--draws", "1")
+    assert bad.returncode == 2 and "at least 2 draws" in bad.stderr

@@ -149,3 +149,69 @@ def test_bundled_examples_read_and_say_they_are_invented(path):
     assert "invented example" in m.name.lower()
     assert "Invented example" in path.read_text()
     assert section_properties(m.section).A > 0
+
+
+# -- the error model a sheet states ----------------------------------------------------------------
+def test_reading_uncertainty_of_a_shape_propagates_to_every_property():
+    from tracer.result import measure
+
+    m = parse_sheet('units = "cm"\n[uncertainty]\nreading = 0.01\n[shape]\nkind = "rectangle"\nb = 4.7\nh = 19.5\n')
+    r = measure(m)
+    # A = b h with u_b = u_h = 0.1 mm: u(A) = 0.1 sqrt(b^2 + h^2) mm^2 (JCGM 100:2008, eq. 10).
+    assert r.u["A"] == pytest.approx(0.1 * np.hypot(47, 195), rel=1e-9)
+    assert set(r.u) == set(PROPERTY_KEYS)
+
+
+def test_resolution_and_scale_in_a_sheet():
+    from tracer.result import measure
+    from tracer.uncertainty import Readings, ScaleError
+
+    m = parse_sheet('units = "mm"\n[uncertainty]\nresolution = 0.1\nscale = 0.002\n'
+                    '[shape]\nkind = "rectangle"\nb = 40\nh = 100\n')
+    kinds = {type(c) for c in m.error_model.components}
+    assert kinds == {Readings, ScaleError}
+    readings = next(c for c in m.error_model.components if isinstance(c, Readings))
+    assert readings.distribution == "rectangular" and readings.u[0] == pytest.approx(0.1 / np.sqrt(12))
+    r = measure(m)
+    # Readings: (h u)^2 + (b u)^2; scale about the origin: dA/de = 2A (A goes as length^2).
+    expected = np.sqrt((100**2 + 40**2) * (0.1 / np.sqrt(12)) ** 2 + (2 * 4000 * 0.002) ** 2)
+    assert r.u["A"] == pytest.approx(expected, rel=1e-9)
+
+
+def test_outline_and_station_sheets_name_their_inputs():
+    from tracer.uncertainty import PointNoise, Readings
+
+    m = parse_sheet('units = "mm"\n[uncertainty]\nreading = 0.2\n[outline]\npoints = [[0,0],[10,0],[10,10],[0,10]]\n')
+    assert isinstance(m.error_model.components[0], PointNoise)
+    m = parse_sheet('units = "mm"\n[uncertainty]\nreading = 0.2\n[stations]\nrows = [[0, 0, 40], [100, 5, 35]]\n')
+    c = m.error_model.components[0]
+    assert isinstance(c, Readings) and c.names[:3] == ("stations.rows[1].y", "stations.rows[1].x_left",
+                                                      "stations.rows[1].x_right")
+
+
+def test_zero_dimensions_are_exact_and_wane_legs_are_readings():
+    m = parse_sheet('units = "mm"\n[uncertainty]\nreading = 0.5\n[shape]\nkind = "rectangle"\nb = 47\nh = 150\n'
+                    'wane = { top_left = [10, 20], top_right = 0 }\n')
+    assert m.error_model.components[0].names == ("shape.b", "shape.h", "shape.wane.top_left[1]",
+                                                 "shape.wane.top_left[2]")
+
+
+@pytest.mark.parametrize("text,message", [
+    ('units = "mm"\n[uncertainty]\nreading = 10\n[shape]\nkind = "i-section"\nh = 200\nb = 100\ntw = 5.6\ntf = 8.5\n',
+     r"uncertainty.reading = 10.0 is larger than shape.tw = 5.6"),
+    ('units = "in"\n[uncertainty]\nresolution = 0.5\n[shape]\nkind = "tube"\nd = 4\nt = 0.25\n',
+     r"uncertainty.resolution = 0.5 is larger than shape.t = 0.25"),
+    ('units = "mm"\n[uncertainty]\nreading = 20\n[outline]\npoints = [[0,0],[100,0],[100,10],[0,10]]\n',
+     r"larger than the outline's smaller extent = 10.0"),
+    ('units = "mm"\n[uncertainty]\nreading = 50\n[stations]\nrows = [[0, 0, 40], [100, 5, 35]]\n',
+     r"larger than the narrowest station's width = 30.0"),
+    ('units = "mm"\n[uncertainty]\nreading = -0.1\n[shape]\nkind = "round"\nd = 10\n',
+     r"uncertainty.reading = -0.1 must not be negative"),
+    ('units = "mm"\n[uncertainty]\nscale = 0.7\n[shape]\nkind = "round"\nd = 10\n',
+     r"uncertainty.scale = 0.7 is a relative uncertainty"),
+    ('units = "mm"\n[uncertainty]\nsigma = 0.1\n[shape]\nkind = "round"\nd = 10\n',
+     r"unknown field uncertainty.sigma"),
+])
+def test_bad_uncertainties_name_the_field(text, message):
+    with pytest.raises(SheetError, match=message):
+        parse_sheet(text)

@@ -3,7 +3,7 @@
 The public API, gathered from the modules that define it.
 """
 
-__version__ = "0.1.0"
+from ._version import __version__
 
 from .errors import (GeometryError, InputError, MeasurementError, ShapeError, SheetError, TracerError,
                      UnitError)
@@ -16,6 +16,8 @@ from .shapes import (ALPHA_MAX, SHAPE_KINDS, angle, arc_points, box, channel, i_
                      round_bar, tee, tube)
 from .sheet import parse_sheet, read_sheet, sheet_text, write_sheet
 from .stations import stations_section
+from .uncertainty import (BoundaryOffset, ErrorModel, HomographyError, PointNoise, Readings, ScaleError,
+                          TiltAllowance, Uncertainty, evaluate_uncertainty, propagate_linear, propagate_monte_carlo)
 
 __all__ = [
     "__version__",
@@ -28,4 +30,6 @@ __all__ = [
     "round_bar", "tube", "box",
     "read_sheet", "parse_sheet", "sheet_text", "write_sheet",
     "stations_section",
+    "ErrorModel", "Readings", "PointNoise", "BoundaryOffset", "ScaleError", "HomographyError", "TiltAllowance",
+    "Uncertainty", "evaluate_uncertainty", "propagate_linear", "propagate_monte_carlo",
 ]

@@ -14,7 +14,7 @@ import sys
 from pathlib import Path
 from typing import Sequence
 
-from . import __version__
+from ._version import __version__
 
 __all__ = ["main"]
 
@@ -40,6 +40,10 @@ examples:
   tracer measure angle.toml --align principal    properties about the principal axes
   tracer measure beam.toml --save-sheet beam-outline.toml
                                                  save the geometry as an editable outline
+  tracer measure joist.toml --budget             which reading dominates the uncertainty
+  tracer measure joist.toml --characteristic     add the 5th-percentile values
+
+Values are shown as value ± U with U = 2u (k = 2); the JSON gives u (k = 1).
 
 exit status: 0 done, 1 input readable but not measurable, 2 bad usage or unreadable input.
 Results are for screening only, not a design check.
@@ -103,6 +107,14 @@ def _parser() -> argparse.ArgumentParser:
                    help="turn the section onto its principal axes before reporting")
     m.add_argument("--save-sheet", metavar="PATH",
                    help="also write the geometry as an [outline] sheet, to edit by hand and measure again")
+    m.add_argument("--budget", action="store_true",
+                   help="add the uncertainty budget of A, Ix, Iy to the table (it is always in the JSON)")
+    m.add_argument("--characteristic", action="store_true",
+                   help="add the 5th-percentile (low characteristic) value of each property")
+    m.add_argument("--draws", type=_positive_int, metavar="N",
+                   help="a fixed number of Monte Carlo draws (default: adaptive, JCGM 101 7.9)")
+    m.add_argument("--random-seed", type=int, default=None, metavar="N",
+                   help="seed of the Monte Carlo draws (default fixed, so reruns print the same numbers)")
     m.add_argument("--debug", action="store_true", help="show the traceback of an error")
     m.set_defaults(command="measure", run=_measure)
     return parser
@@ -121,13 +133,18 @@ def _measure(args: argparse.Namespace) -> int:
             raise InputError(f"{path}: no such file")
         raise InputError(f"{path}: not a section sheet; this version measures section sheets (.toml), "
                          "see tracer measure --help")
-    result = measure(read_sheet(path), align=args.align)
+    from .uncertainty import DEFAULT_SEED
+
+    seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
+    result = measure(read_sheet(path), align=args.align, draws=args.draws, seed=seed,
+                     characteristic=args.characteristic)
 
     # Everything is computed before anything is written: an error never leaves a half output.
     outputs: list[tuple[str, str]] = []
     doc_text = None
     if args.json is not None:
-        doc_text = json.dumps(result_json(result, units=args.units), indent=2, ensure_ascii=False) + "\n"
+        doc = result_json(result, units=args.units, characteristic=args.characteristic)
+        doc_text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
         if args.json != "-":
             outputs.append((args.json, doc_text))
     if args.save_sheet:
@@ -144,10 +161,20 @@ def _measure(args: argparse.Namespace) -> int:
     if args.json == "-":
         sys.stdout.write(doc_text or "")
     else:
-        print(format_table(result, units=args.units))
+        print(format_table(result, units=args.units, budget=args.budget, characteristic=args.characteristic))
         for target, _ in outputs:
             print(f"\n  wrote {target}")
     return 0
+
+
+def _positive_int(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if n < 2:
+        raise argparse.ArgumentTypeError(f"{n}: at least 2 draws are needed")
+    return n
 
 
 if __name__ == "__main__":  # pragma: no cover

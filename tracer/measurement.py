@@ -12,6 +12,7 @@ from types import MappingProxyType
 from typing import Any, Mapping
 
 from .geometry import Section
+from .uncertainty import ErrorModel
 
 __all__ = ["Measurement"]
 
@@ -29,19 +30,39 @@ class Measurement:
     source : mapping
         Provenance for the result JSON's ``source`` record (kind, path, sha256, …).
     uncertainty : mapping
-        The stated uncertainty of the readings, lengths in mm: ``{"reading": u}`` or
-        ``{"resolution": r}``; empty when none was stated.
+        The uncertainty as stated in the input, lengths in mm (``{"reading": u}``,
+        ``{"resolution": r}``, ``{"scale": u_rel}``); empty when none was stated.
+    error_model : ErrorModel
+        How the geometry may differ from the truth; empty when no uncertainty was stated.
+    mc_proxy : (Section, ErrorModel), optional
+        A coarser discretisation of the same geometry and its error model, for Monte Carlo
+        draws (parametric shapes).
     """
 
     section: Section
     name: str
     source: Mapping[str, Any] = field(default_factory=dict)
     uncertainty: Mapping[str, float] = field(default_factory=dict)
+    error_model: ErrorModel = field(default_factory=ErrorModel)
+    mc_proxy: tuple[Section, ErrorModel] | None = None
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "source", MappingProxyType(dict(self.source)))
         object.__setattr__(self, "uncertainty", MappingProxyType(dict(self.uncertainty)))
 
-    def with_section(self, section: Section, **source_updates: Any) -> Measurement:
-        """The same measurement with new geometry, the change recorded in the provenance."""
-        return replace(self, section=section, source={**self.source, **source_updates})
+    def rotated(self, angle: float, origin: tuple[float, float]) -> Measurement:
+        """The measurement turned by `angle` [deg] about `origin` [mm], its error model with it.
+
+        Vertex order is kept, so per-vertex error models turn with the geometry.
+        """
+        from .uncertainty import rotate_model
+
+        def turn(section: Section) -> Section:
+            return section.rotated(angle, origin=origin)
+
+        proxy = None
+        if self.mc_proxy is not None:
+            proxy = (turn(self.mc_proxy[0]), rotate_model(self.mc_proxy[1], angle, origin))
+        return replace(self, section=turn(self.section), error_model=rotate_model(self.error_model, angle, origin),
+                       mc_proxy=proxy,
+                       source={**self.source, "aligned": {"to": "principal axes", "rotation_deg": angle}})

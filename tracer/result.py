@@ -11,11 +11,12 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-from . import __version__
+from ._version import __version__
+from .errors import UnitError
 from .measurement import Measurement
 from .properties import PROPERTY_KEYS, Properties, section_properties
+from .uncertainty import DEFAULT_SEED, Uncertainty, evaluate_uncertainty
 from .units import OUTPUT_UNITS, from_mm, mm_per, property_unit
-from .errors import UnitError
 
 __all__ = ["Result", "measure", "result_json", "SCHEMA", "CAUTION"]
 
@@ -36,16 +37,22 @@ class Result:
         What was measured (geometry in mm and provenance), after any alignment.
     properties : Properties
         Values in mm units and degrees.
-    u : dict
-        Standard uncertainty (k = 1) of each property whose uncertainty is computed, same units.
     warnings : tuple of str
         What a person must know to trust the numbers.
+    uncertainty : Uncertainty, optional
+        u of each property (k = 1, same units), how it was found, the budget; None when the
+        input stated no uncertainty.
     """
 
     measurement: Measurement
     properties: Properties
-    u: dict[str, float] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
+    uncertainty: Uncertainty | None = None
+
+    @property
+    def u(self) -> dict[str, float]:
+        """Standard uncertainty (k = 1) of each property whose uncertainty is computed."""
+        return dict(self.uncertainty.u) if self.uncertainty is not None else {}
 
     @property
     def name(self) -> str:
@@ -53,8 +60,9 @@ class Result:
         return self.measurement.name
 
 
-def measure(measurement: Measurement, *, align: str | None = None) -> Result:
-    """Compute the section properties of a measurement.
+def measure(measurement: Measurement, *, align: str | None = None, draws: int | None = None,
+            seed: int = DEFAULT_SEED, characteristic: bool = False) -> Result:
+    """Compute the section properties of a measurement and their uncertainty.
 
     Parameters
     ----------
@@ -63,6 +71,12 @@ def measure(measurement: Measurement, *, align: str | None = None) -> Result:
     align : {None, "principal"}
         ``"principal"`` turns the section about its centroid so that its major principal axis
         lies along x before the properties are reported (then Ix = I1, Ixy = 0).
+    draws : int, optional
+        A fixed number of Monte Carlo draws; by default the adaptive rule of JCGM 101 decides.
+    seed : int
+        Seed of the Monte Carlo draws (the same seed gives the same numbers).
+    characteristic : bool
+        Stabilise the 5th-percentile (low characteristic) values for reporting.
 
     Returns
     -------
@@ -73,21 +87,27 @@ def measure(measurement: Measurement, *, align: str | None = None) -> Result:
         raise ValueError(f"align = {align!r}; use 'principal' or leave it out")
     props = section_properties(measurement.section)
     if align == "principal":
-        turn = -props.theta
-        section = measurement.section.rotated(turn, origin=(props.cx, props.cy))
-        measurement = measurement.with_section(section, aligned={"to": "principal axes", "rotation_deg": turn})
-        props = section_properties(section)
+        measurement = measurement.rotated(-props.theta, origin=(props.cx, props.cy))
+        props = section_properties(measurement.section)
     if not props.principal_unique:
         warnings.append("I1 = I2: every centroidal axis is principal; theta is reported as 0 deg")
-    if measurement.uncertainty:
-        warnings.append("the stated reading uncertainty is recorded but not yet propagated: "
-                        "no u is reported for any property")
+    unc = None
+    if measurement.error_model:
+        proxy = measurement.mc_proxy or (None, None)
+        unc = evaluate_uncertainty(measurement.section, measurement.error_model, props,
+                                   mc_section=proxy[0], mc_model=proxy[1], draws=draws, seed=seed,
+                                   percentile=characteristic)
+        warnings += unc.warnings
+        if unc.u.get("Ixy") == 0.0 and unc.u.get("A", 0.0) > 0:
+            warnings.append("Ixy and theta have u = 0: the measured shape is symmetric by construction; "
+                            "measure an outline to see any asymmetry of the real member")
     else:
-        warnings.append("no uncertainty was stated for the readings: no u is reported for any property")
-    return Result(measurement=measurement, properties=props, warnings=tuple(warnings))
+        warnings.append("no uncertainty was stated for the readings: no u is reported for any property; "
+                        "add an [uncertainty] table to the sheet")
+    return Result(measurement=measurement, properties=props, warnings=tuple(warnings), uncertainty=unc)
 
 
-def result_json(result: Result, *, units: str = "mm") -> dict[str, Any]:
+def result_json(result: Result, *, units: str = "mm", characteristic: bool = False) -> dict[str, Any]:
     """The result as a ``tracer/result/1`` JSON document (a dict ready for ``json.dump``).
 
     Parameters
@@ -95,15 +115,20 @@ def result_json(result: Result, *, units: str = "mm") -> dict[str, Any]:
     result : Result
     units : {"mm", "cm", "m", "in"}
         Length unit of every value.
+    characteristic : bool
+        Add ``p05``, the 5th-percentile (low characteristic) value, to each property.
     """
     if units not in OUTPUT_UNITS:
         raise UnitError(f"units = {units!r}; use one of {' | '.join(OUTPUT_UNITS)}")
     values = result.properties.values()
+    unc = result.uncertainty
     props: dict[str, Any] = {}
     for key in PROPERTY_KEYS:
         entry: dict[str, Any] = {"value": _finite(from_mm(values[key], key, units))}
         if key in result.u:
             entry["u"] = _finite(from_mm(result.u[key], key, units))
+        if characteristic and unc is not None and key in unc.p05:
+            entry["p05"] = _finite(from_mm(unc.p05[key], key, units))
         entry["unit"] = property_unit(key, units)
         props[key] = entry
     section = result.measurement.section
@@ -124,8 +149,27 @@ def result_json(result: Result, *, units: str = "mm") -> dict[str, Any]:
             "bounds": {"x_min": x0 * f, "y_min": y0 * f, "x_max": x1 * f, "y_max": y1 * f},
             "plastic_axes": {"y": p.yp * f, "x": p.xp * f},
         },
+        "uncertainty": _uncertainty_json(unc, units),
         "warnings": list(result.warnings),
         "cautions": [CAUTION],
+    }
+
+
+def _uncertainty_json(unc: Uncertainty | None, units: str) -> dict[str, Any] | None:
+    """How u was found, and the budget: each input's share of u^2 and its own u contribution."""
+    if unc is None:
+        return None
+    return {
+        "k": 1,
+        "expanded_k": 2,
+        "meaning": "u is the standard uncertainty (k = 1), the root-mean-square deviation about the value; "
+                   "U = 2u is shown to people",
+        "method": dict(unc.method),
+        "monte_carlo": {"draws": unc.draws, "seed": unc.seed, "converged": unc.converged},
+        "budget": {key: [{"input": r["input"], "share": r["share"],
+                          "u": _finite(from_mm(float(r["u"]), key, units)), "unit": property_unit(key, units)}
+                         for r in rows]
+                   for key, rows in unc.budget.items()},
     }
 
 

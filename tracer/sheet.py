@@ -23,7 +23,9 @@ from .files import sha256_of, write_atomic
 from .geometry import Section
 from .measurement import Measurement
 from .shapes import CORNERS, SHAPE_KINDS, article, make_shape
-from .stations import stations_section
+from .stations import stations_jacobian, stations_section
+from .uncertainty import (ErrorModel, PointNoise, Readings, ScaleError, affine_jacobian,
+                          resolution_u)
 from .units import LENGTH_UNITS, mm_per
 
 __all__ = ["read_sheet", "parse_sheet", "sheet_text", "write_sheet", "SHEET_GEOMETRIES"]
@@ -31,7 +33,9 @@ __all__ = ["read_sheet", "parse_sheet", "sheet_text", "write_sheet", "SHEET_GEOM
 #: The geometry tables of a sheet; a sheet has exactly one.
 SHEET_GEOMETRIES = ("shape", "outline", "stations")
 _TOP_KEYS = ("units", "name", "notes", "uncertainty", *SHEET_GEOMETRIES)
-_UNCERTAINTY_KEYS = ("reading", "resolution")
+_UNCERTAINTY_KEYS = ("reading", "resolution", "scale")
+# Chord angle [rad] of the coarser copy of a parametric shape used for Monte Carlo draws.
+_MC_CHORD_ANGLE = 0.05
 
 
 def read_sheet(path: str | Path) -> Measurement:
@@ -97,7 +101,7 @@ def sheet_text(section: Section, *, name: str, units: str = "mm", notes: str | N
     notes : str, optional
         Free text kept in the sheet.
     uncertainty : mapping, optional
-        ``{"reading": u}`` or ``{"resolution": r}`` [mm].
+        ``{"reading": u}`` or ``{"resolution": r}`` [mm], and ``{"scale": u_rel}``.
     """
     scale = mm_per(units)
 
@@ -116,8 +120,8 @@ def sheet_text(section: Section, *, name: str, units: str = "mm", notes: str | N
     if notes:
         lines.append(f"notes = {_str(notes)}")
     if uncertainty:
-        lines += ["", "[uncertainty]"]
-        lines += [f"{k} = {_num(v / scale)}" for k, v in uncertainty.items()]
+        lines += ["", "[uncertainty]  # a reading or resolution applies to each coordinate of every point"]
+        lines += [f"{k} = {_num(v if k == 'scale' else v / scale)}" for k, v in uncertainty.items()]
     lines.append("")
     if section.n_parts == 1:
         lines += ["[outline]", part(section.parts[0])]
@@ -161,18 +165,125 @@ def _measurement(doc: dict[str, Any], raw: bytes, path: str | Path | None) -> Me
         raise SheetError(f"{kind} must be a table: write [{kind}] on a line of its own")
     source: dict[str, Any] = {"kind": "sheet", "path": str(path) if path is not None else None,
                               "sha256": sha256_of(raw), "sheet_units": units, "geometry": kind}
+    uncertainty = _uncertainty(doc.get("uncertainty"), scale)
     if kind == "shape":
-        section, record = _shape(table, scale)
+        section, record, dims = _shape(table, scale)
         source["shape"] = record
+        model, proxy = _shape_model(record["kind"], dims, uncertainty, scale)
     elif kind == "outline":
         section = _outline(table, scale)
+        model, proxy = _outline_model(section, uncertainty, scale), None
     else:
-        section = _stations(table, scale)
-    uncertainty = _uncertainty(doc.get("uncertainty"), scale)
-    return Measurement(section=section, name=name, source=source, uncertainty=uncertainty)
+        section, rows = _stations(table, scale)
+        model, proxy = _stations_model(rows, uncertainty, scale), None
+    return Measurement(section=section, name=name, source=source, uncertainty=uncertainty,
+                       error_model=model, mc_proxy=proxy)
 
 
-def _shape(table: dict[str, Any], scale: float) -> tuple[Section, dict[str, Any]]:
+# -- error models of the readings -------------------------------------------------------------
+def _reading(uncertainty: dict[str, float]) -> tuple[str, float, str] | None:
+    """(field, u [mm], distribution) of the stated reading uncertainty, or None."""
+    if "reading" in uncertainty:
+        return "reading", uncertainty["reading"], "normal"
+    if "resolution" in uncertainty:
+        return "resolution", resolution_u(uncertainty["resolution"]), "rectangular"
+    return None
+
+
+def _scale_component(uncertainty: dict[str, float]) -> list:
+    return [ScaleError(uncertainty["scale"])] if "scale" in uncertainty else []
+
+
+def _too_large(field: str, uncertainty: dict[str, float], what: str, size: float, scale: float) -> None:
+    stated = uncertainty[field]
+    if stated > size:
+        raise SheetError(f"uncertainty.{field} = {_num(stated / scale)} is larger than {what} = "
+                         f"{_num(size / scale)}; give the uncertainty of one reading, in the sheet's units")
+
+
+def _shape_model(kind: str, dims: dict[str, Any], uncertainty: dict[str, float],
+                 scale: float) -> tuple[ErrorModel, tuple[Section, ErrorModel] | None]:
+    reading = _reading(uncertainty)
+    comps: list = []
+    proxy_comps: list = []
+    params = _shape_parameters(dims)
+    proxy_section = None
+    if reading is not None and params:
+        field, u, dist = reading
+        for name, _, value in params:
+            _too_large(field, uncertainty, f"shape.{name}", value, scale)
+        values = [v for _, _, v in params]
+        names = tuple(f"shape.{n}" for n, _, _ in params)
+
+        def builder(chord: float | None):
+            return lambda p: make_shape(kind, chord_angle=chord, **_with_values(dims, params, p))
+
+        comps.append(Readings(names, [u] * len(params), affine_jacobian(builder(None), values), dist))
+        proxy_section = make_shape(kind, chord_angle=_MC_CHORD_ANGLE, **dims)
+        proxy_comps.append(Readings(names, [u] * len(params), affine_jacobian(builder(_MC_CHORD_ANGLE), values), dist))
+    comps += _scale_component(uncertainty)
+    proxy_comps += _scale_component(uncertainty)
+    proxy = None
+    if proxy_section is not None and proxy_section.n_vertices < make_shape(kind, **dims).n_vertices:
+        proxy = (proxy_section, ErrorModel(tuple(proxy_comps)))
+    return ErrorModel(tuple(comps)), proxy
+
+
+def _shape_parameters(dims: dict[str, Any]) -> list[tuple[str, tuple, float]]:
+    """The readings of a shape: (name, path into dims, value [mm]); zero dimensions are exact."""
+    out = []
+    for key, v in dims.items():
+        if key == "wane_form":
+            continue
+        if key == "wane" and isinstance(v, dict):
+            leaves = [(f"wane.{c}", (key, c), w) for c, w in v.items()]
+        else:
+            leaves = [(key, (key,), v)]
+        for label, path, w in leaves:
+            if isinstance(w, list):
+                out += [(f"{label}[{i + 1}]", path + (i,), float(x)) for i, x in enumerate(w) if x > 0]
+            elif w > 0:
+                out.append((label, path, float(w)))
+    return out
+
+
+def _with_values(dims: dict[str, Any], params: list[tuple[str, tuple, float]], values: Any) -> dict[str, Any]:
+    """A copy of `dims` with the readings replaced by `values`."""
+    out = {k: (dict(v) if isinstance(v, dict) else list(v) if isinstance(v, list) else v) for k, v in dims.items()}
+    if isinstance(out.get("wane"), dict):
+        out["wane"] = {c: list(w) if isinstance(w, list) else w for c, w in out["wane"].items()}
+    for (_, path, _), value in zip(params, values):
+        target = out
+        for step in path[:-1]:
+            target = target[step]
+        target[path[-1]] = float(value)
+    return out
+
+
+def _outline_model(section: Section, uncertainty: dict[str, float], scale: float) -> ErrorModel:
+    comps: list = []
+    reading = _reading(uncertainty)
+    if reading is not None:
+        field, u, dist = reading
+        x0, y0, x1, y1 = section.bounds
+        _too_large(field, uncertainty, "the outline's smaller extent", min(x1 - x0, y1 - y0), scale)
+        comps.append(PointNoise(u, distribution=dist, label="outline points"))
+    return ErrorModel(tuple(comps + _scale_component(uncertainty)))
+
+
+def _stations_model(rows: list[list[float]], uncertainty: dict[str, float], scale: float) -> ErrorModel:
+    comps: list = []
+    reading = _reading(uncertainty)
+    if reading is not None:
+        field, u, dist = reading
+        widths = [r[2] - r[1] for r in rows if r[2] > r[1]]
+        _too_large(field, uncertainty, "the narrowest station's width", min(widths), scale)
+        names = tuple(f"stations.rows[{i}].{c}" for i in range(1, len(rows) + 1) for c in ("y", "x_left", "x_right"))
+        comps.append(Readings(names, [u] * len(names), stations_jacobian(rows), dist))
+    return ErrorModel(tuple(comps + _scale_component(uncertainty)))
+
+
+def _shape(table: dict[str, Any], scale: float) -> tuple[Section, dict[str, Any], dict[str, Any]]:
     if "kind" not in table:
         raise SheetError(f"shape.kind is missing; use one of {', '.join(SHAPE_KINDS)}")
     kind = table["kind"]
@@ -200,7 +311,7 @@ def _shape(table: dict[str, Any], scale: float) -> tuple[Section, dict[str, Any]
         section = make_shape(kind, **dims)
     except ShapeError as e:
         raise ShapeError(f"shape: {e}") from None
-    return section, {k: v for k, v in table.items()}
+    return section, {k: v for k, v in table.items()}, dims
 
 
 def _wane(value: Any, scale: float) -> Any:
@@ -270,7 +381,7 @@ def _ring(points: Any, label: str, scale: float) -> list[tuple[float, float]]:
     return out
 
 
-def _stations(table: dict[str, Any], scale: float) -> Section:
+def _stations(table: dict[str, Any], scale: float) -> tuple[Section, list[list[float]]]:
     for key in table:
         if key != "rows":
             raise SheetError(_unknown(key, ("rows",), prefix="stations."))
@@ -283,12 +394,13 @@ def _stations(table: dict[str, Any], scale: float) -> Section:
             raise SheetError(f"stations.rows[{i}] = {row!r} must be three numbers [y, x_left, x_right]")
         out.append([_coordinate(f"stations.rows[{i}]", v) * scale for v in row])
     try:
-        return stations_section(out)
+        return stations_section(out), out
     except GeometryError as e:
         raise GeometryError(f"stations: {e}") from None
 
 
 def _uncertainty(table: Any, scale: float) -> dict[str, float]:
+    """The [uncertainty] table: reading or resolution in mm, scale relative."""
     if table is None:
         return {}
     if not isinstance(table, dict):
@@ -296,14 +408,20 @@ def _uncertainty(table: Any, scale: float) -> dict[str, float]:
     for key in table:
         if key not in _UNCERTAINTY_KEYS:
             raise SheetError(_unknown(key, _UNCERTAINTY_KEYS, prefix="uncertainty."))
-    if len(table) > 1:
+    if "reading" in table and "resolution" in table:
         raise SheetError("uncertainty has both reading and resolution; give one of them")
     out = {}
     for key, value in table.items():
         v = _length(f"uncertainty.{key}", value)
         if v == 0:
             raise SheetError(f"uncertainty.{key} = 0 must be greater than zero (no reading is exact)")
-        out[key] = v * scale
+        if key == "scale":
+            if v >= 0.5:
+                raise SheetError(f"uncertainty.scale = {value!r} is a relative uncertainty (0.001 means 0.1 %); "
+                                 "it must be below 0.5")
+            out[key] = v
+        else:
+            out[key] = v * scale
     return out
 
 

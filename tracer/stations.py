@@ -14,7 +14,7 @@ import numpy as np
 from .errors import GeometryError
 from .geometry import Section
 
-__all__ = ["stations_section"]
+__all__ = ["stations_section", "stations_jacobian"]
 
 
 def stations_section(rows: Sequence[Sequence[float]]) -> Section:
@@ -70,6 +70,46 @@ def stations_section(rows: Sequence[Sequence[float]]) -> Section:
             raise GeometryError(
                 f"station {order[k] + 1} at y = {arr[k, 0]:.6g}: x_right = {arr[k, 2]:.6g} must be greater than "
                 f"x_left = {arr[k, 1]:.6g}")
-    right = arr[:, [2, 0]]
-    left = arr[::-1][:, [1, 0]]
-    return Section(np.vstack([right, left]))
+    xy, _ = _ring(arr, order)
+    return Section(xy)
+
+
+def stations_jacobian(rows: Sequence[Sequence[float]]) -> np.ndarray:
+    """d(vertex coordinates)/d(reading) of :func:`stations_section`, readings row by row.
+
+    Returns
+    -------
+    ndarray, shape (3 R, 2, N)
+        Row i of the input contributes the readings ``3i`` (y), ``3i + 1`` (x_left) and
+        ``3i + 2`` (x_right). At a pointed end (x_left = x_right) the one vertex sits at their mean.
+    """
+    arr = np.asarray(rows, dtype=float)
+    order = np.argsort(arr[:, 0], kind="stable")
+    _, jac = _ring(arr[order], order)
+    return jac
+
+
+def _ring(arr: np.ndarray, order: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Vertices up the right faces and down the left faces, and their Jacobian.
+
+    `arr` is sorted by height; `order[k]` is the input row of sorted row k.
+    """
+    n = len(arr)
+    pointed = np.zeros(n, dtype=bool)
+    pointed[[0, -1]] = arr[[0, -1], 2] == arr[[0, -1], 1]
+    right = list(range(n))
+    left = [k for k in range(n - 1, -1, -1) if not pointed[k]]
+    verts = [(k, "right") for k in right] + [(k, "left") for k in left]
+    xy = np.empty((len(verts), 2))
+    jac = np.zeros((3 * n, 2, len(verts)))
+    for i, (k, side) in enumerate(verts):
+        row = 3 * order[k]
+        jac[row, 1, i] = 1.0                                   # y of the station
+        if side == "right" and pointed[k]:
+            xy[i] = (0.5 * (arr[k, 1] + arr[k, 2]), arr[k, 0])
+            jac[row + 1, 0, i] = jac[row + 2, 0, i] = 0.5
+        else:
+            col = 2 if side == "right" else 1
+            xy[i] = (arr[k, col], arr[k, 0])
+            jac[row + col, 0, i] = 1.0
+    return xy, jac

@@ -1,4 +1,4 @@
-"""The readable table of a :class:`~tracer.result.Result`: property, value, unit, meaning."""
+"""The readable table of a :class:`~tracer.result.Result`: property, value ± U, unit, meaning."""
 
 from __future__ import annotations
 
@@ -8,11 +8,25 @@ from .properties import PROPERTY_KEYS, PROPERTY_NAMES
 from .result import CAUTION, Result
 from .units import from_mm, property_unit
 
-__all__ = ["format_table", "format_value"]
+__all__ = ["format_table", "format_value", "format_measured"]
+
+# Inputs listed in a budget before the rest are summed into one line.
+_BUDGET_ROWS = 8
 
 
-def format_table(result: Result, *, units: str = "mm") -> str:
-    """A plain-text table of every property of `result` in `units`, with warnings and caution."""
+def format_table(result: Result, *, units: str = "mm", budget: bool = False, characteristic: bool = False) -> str:
+    """A plain-text table of every property of `result` in `units`, with warnings and caution.
+
+    Parameters
+    ----------
+    result : Result
+    units : str
+        Length unit of the values.
+    budget : bool
+        Add the uncertainty budget of A, Ix and Iy.
+    characteristic : bool
+        Add a column with the 5th-percentile (low characteristic) value.
+    """
     m = result.measurement
     src = m.source
     head = [f"{result.name}"]
@@ -25,23 +39,34 @@ def format_table(result: Result, *, units: str = "mm") -> str:
                 f"{s.n_vertices} vertices")
     if "aligned" in src:
         head.append(f"  turned {src['aligned']['rotation_deg']:.6g} deg about the centroid onto its principal axes")
+    unc = result.uncertainty
+    if unc is not None:
+        head.append(f"  values ± U: expanded uncertainty U = 2u (k = 2, about 95 % coverage); "
+                    f"Monte Carlo {unc.draws} draws, seed {unc.seed}")
     values = result.properties.values()
+    u = result.u
     rows = []
     for key in PROPERTY_KEYS:
         v = from_mm(values[key], key, units)
-        text = format_value(v)
-        if key in result.u:
-            text += f" ± {format_value(2.0 * from_mm(result.u[key], key, units))}"
-        rows.append((key, text, property_unit(key, units), PROPERTY_NAMES[key]))
-    w0 = max(len(r[0]) for r in rows)
-    w1 = max(len(r[1]) for r in rows)
-    w2 = max(len(r[2]) for r in rows)
-    lines = head + [""]
-    lines.append(f"  {'property':<{w0}}  {'value':>{w1}}  {'unit':<{w2}}  meaning")
-    for k, v, u, name in rows:
-        lines.append(f"  {k:<{w0}}  {v:>{w1}}  {u:<{w2}}  {name}")
+        if key in u:
+            text = format_measured(v, 2.0 * from_mm(u[key], key, units))
+        else:
+            text = format_value(v)
+        row = [key, text]
+        if characteristic:
+            p05 = unc.p05.get(key) if unc is not None else None
+            row.append(format_value(from_mm(p05, key, units)) if p05 is not None else "n/a")
+        row += [property_unit(key, units), PROPERTY_NAMES[key]]
+        rows.append(row)
+    titles = ["property", "value ± U" if unc is not None else "value"]
+    if characteristic:
+        titles.append("5th pct")
+    titles += ["unit", "meaning"]
+    lines = head + [""] + _columns([titles] + rows, right={1, 2} if characteristic else {1})
     lines.append("")
     lines.append("  axes: x right, y up; Ix, Iy, Ixy about the centroid; theta counter-clockwise from +x")
+    if budget:
+        lines += [""] + _budget_lines(result, units)
     if result.warnings:
         lines.append("")
         lines += [f"  warning: {w}" for w in result.warnings]
@@ -63,10 +88,87 @@ def format_value(v: float) -> str:
     a = abs(v)
     if 1e-3 <= a < 1e5:
         return f"{v:.5g}"
-    exp = 3 * math.floor(math.log10(a) / 3)
+    exp = _exponent(v)
     mant = v / 10.0 ** exp
     if abs(float(f"{mant:.5g}")) >= 1000:  # rounding carried into the next power
         exp += 3
         mant /= 1000
     digits = max(0, 4 - int(math.floor(math.log10(abs(mant)))))
     return f"{mant:.{digits}f}e{exp}"
+
+
+def format_measured(v: float, U: float) -> str:
+    """``value ± U`` with U to two significant digits and the value to the same decimal place
+    (JCGM 100:2008, 7.2.6), in the value's engineering notation.
+
+    >>> format_measured(3425.43, 7.771), format_measured(23731900.0, 49730.0), format_measured(0.0, 0.0)
+    ('3425.4 ± 7.8', '23.732e6 ± 0.050e6', '0 ± 0')
+    >>> format_measured(69626.0, 3023.0)
+    '69600 ± 3000'
+
+    """
+    if not (math.isfinite(v) and math.isfinite(U)):
+        return f"{format_value(v)} ± n/a"
+    if U == 0:
+        return f"{format_value(v)} ± 0"
+    ref = v if v != 0 else U                          # the notation follows the value
+    exp = 0 if 1e-3 <= abs(ref) < 1e5 else _exponent(ref)
+    last = math.floor(math.log10(U)) - 1              # place of U's second significant digit
+    f = 10.0 ** exp
+    tail = f"e{exp}" if exp else ""
+    if last > exp:                                    # U's digits lie left of the point: round there
+        step = 10.0 ** last
+        return f"{round(v / step) * step / f:.0f}{tail} ± {round(U / step) * step / f:.0f}{tail}"
+    decimals = exp - last
+    return f"{v / f:.{decimals}f}{tail} ± {U / f:.{decimals}f}{tail}"
+
+
+def _two(v: float) -> str:
+    """An uncertainty to two significant digits (JCGM 100:2008, 7.2.6).
+
+    >>> _two(97.5), _two(0.01234), _two(46012.0), _two(381750.0), _two(0.0)
+    ('98', '0.012', '46000', '380e3', '0')
+    """
+    if not math.isfinite(v):
+        return "n/a"
+    if v == 0:
+        return "0"
+    r = float(f"{v:.2g}")
+    exp = 0 if 1e-3 <= abs(r) < 1e5 else _exponent(r)
+    m = r / 10.0 ** exp
+    digits = max(0, 1 - math.floor(math.log10(abs(m))))
+    return f"{m:.{digits}f}" + (f"e{exp}" if exp else "")
+
+
+def _exponent(v: float) -> int:
+    return 3 * math.floor(math.log10(abs(v)) / 3)
+
+
+def _columns(rows: list[list[str]], right: set[int]) -> list[str]:
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    out = []
+    for r in rows:
+        cells = [c.rjust(w) if i in right else c.ljust(w) for i, (c, w) in enumerate(zip(r, widths))]
+        out.append(("  " + "  ".join(cells)).rstrip())
+    return out
+
+
+def _budget_lines(result: Result, units: str) -> list[str]:
+    unc = result.uncertainty
+    if unc is None:
+        return ["  uncertainty budget: none (no uncertainty was stated)"]
+    lines = ["  uncertainty budget: each input's share of u² and its own part of u (k = 1)"]
+    for key, entries in unc.budget.items():
+        unit = property_unit(key, units)
+        lines.append(f"    {key} (u = {_two(from_mm(result.u.get(key, math.nan), key, units))} {unit}):")
+        shown = entries[:_BUDGET_ROWS]
+        rest = entries[_BUDGET_ROWS:]
+        rows = [[e["input"], f"{100 * e['share']:.1f} %", f"{_two(from_mm(e['u'], key, units))} {unit}"]
+                for e in shown]
+        if rest:
+            share = sum(e["share"] for e in rest)
+            part = math.sqrt(sum(e["u"] ** 2 for e in rest))
+            rows.append([f"{len(rest)} other inputs", f"{100 * share:.1f} %",
+                         f"{_two(from_mm(part, key, units))} {unit}"])
+        lines += ["    " + line for line in _columns(rows, right={1, 2})]
+    return lines
