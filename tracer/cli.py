@@ -42,6 +42,7 @@ examples:
                                                  save the geometry as an editable outline
   tracer measure joist.toml --budget             which reading dominates the uncertainty
   tracer measure joist.toml --characteristic     add the 5th-percentile values
+  tracer measure beam.toml --torsion             add J, shear centre and Cw (finite elements)
 
 Values are shown as value ± U with U = 2u (k = 2); the JSON gives u (k = 1).
 
@@ -111,8 +112,11 @@ def _parser() -> argparse.ArgumentParser:
                    help="add the uncertainty budget of A, Ix, Iy to the table (it is always in the JSON)")
     m.add_argument("--characteristic", action="store_true",
                    help="add the 5th-percentile (low characteristic) value of each property")
+    m.add_argument("--torsion", action="store_true",
+                   help="also compute J, the shear centre (xs, ys) and Cw by finite elements")
     m.add_argument("--draws", type=_positive_int, metavar="N",
-                   help="a fixed number of Monte Carlo draws (default: adaptive, JCGM 101 7.9)")
+                   help="a fixed number of Monte Carlo draws (default: adaptive, JCGM 101 7.9; "
+                        "200 for the torsion properties)")
     m.add_argument("--random-seed", type=int, default=None, metavar="N",
                    help="seed of the Monte Carlo draws (default fixed, so reruns print the same numbers)")
     m.add_argument("--debug", action="store_true", help="show the traceback of an error")
@@ -137,7 +141,7 @@ def _measure(args: argparse.Namespace) -> int:
 
     seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
     result = measure(read_sheet(path), align=args.align, draws=args.draws, seed=seed,
-                     characteristic=args.characteristic)
+                     characteristic=args.characteristic, torsion=args.torsion)
 
     # Everything is computed before anything is written: an error never leaves a half output.
     outputs: list[tuple[str, str]] = []

@@ -15,6 +15,7 @@ from ._version import __version__
 from .errors import UnitError
 from .measurement import Measurement
 from .properties import PROPERTY_KEYS, Properties, section_properties
+from .torsion import TORSION_KEYS, Torsion, TorsionUncertainty
 from .uncertainty import DEFAULT_SEED, Uncertainty, evaluate_uncertainty
 from .units import OUTPUT_UNITS, from_mm, mm_per, property_unit
 
@@ -42,17 +43,46 @@ class Result:
     uncertainty : Uncertainty, optional
         u of each property (k = 1, same units), how it was found, the budget; None when the
         input stated no uncertainty.
+    torsion : Torsion, optional
+        J, Cw, xs, ys by finite elements, when asked for.
+    torsion_uncertainty : TorsionUncertainty, optional
+        Their u and 5th percentiles.
     """
 
     measurement: Measurement
     properties: Properties
     warnings: tuple[str, ...] = ()
     uncertainty: Uncertainty | None = None
+    torsion: Torsion | None = None
+    torsion_uncertainty: TorsionUncertainty | None = None
+
+    @property
+    def keys(self) -> tuple[str, ...]:
+        """The property keys computed, in the order of DESIGN.md."""
+        return PROPERTY_KEYS + (TORSION_KEYS if self.torsion is not None else ())
+
+    def values(self) -> dict[str, float]:
+        """Every computed property value (mm units, degrees)."""
+        out = self.properties.values()
+        if self.torsion is not None:
+            out.update(self.torsion.values())
+        return out
 
     @property
     def u(self) -> dict[str, float]:
         """Standard uncertainty (k = 1) of each property whose uncertainty is computed."""
-        return dict(self.uncertainty.u) if self.uncertainty is not None else {}
+        out = dict(self.uncertainty.u) if self.uncertainty is not None else {}
+        if self.torsion_uncertainty is not None:
+            out.update(self.torsion_uncertainty.u)
+        return out
+
+    @property
+    def p05(self) -> dict[str, float]:
+        """5th-percentile (low characteristic) values, where computed."""
+        out = dict(self.uncertainty.p05) if self.uncertainty is not None else {}
+        if self.torsion_uncertainty is not None:
+            out.update(self.torsion_uncertainty.p05)
+        return out
 
     @property
     def name(self) -> str:
@@ -61,7 +91,7 @@ class Result:
 
 
 def measure(measurement: Measurement, *, align: str | None = None, draws: int | None = None,
-            seed: int = DEFAULT_SEED, characteristic: bool = False) -> Result:
+            seed: int = DEFAULT_SEED, characteristic: bool = False, torsion: bool = False) -> Result:
     """Compute the section properties of a measurement and their uncertainty.
 
     Parameters
@@ -77,6 +107,9 @@ def measure(measurement: Measurement, *, align: str | None = None, draws: int | 
         Seed of the Monte Carlo draws (the same seed gives the same numbers).
     characteristic : bool
         Stabilise the 5th-percentile (low characteristic) values for reporting.
+    torsion : bool
+        Also compute J, the shear centre and Cw by finite elements (and their uncertainty by
+        Monte Carlo, `draws` or 200 draws).
 
     Returns
     -------
@@ -104,7 +137,22 @@ def measure(measurement: Measurement, *, align: str | None = None, draws: int | 
     else:
         warnings.append("no uncertainty was stated for the readings: no u is reported for any property; "
                         "add an [uncertainty] table to the sheet")
-    return Result(measurement=measurement, properties=props, warnings=tuple(warnings), uncertainty=unc)
+    tor = tor_u = None
+    if torsion:
+        from .torsion import TORSION_DRAWS, evaluate_torsion
+
+        # Parametric shapes are meshed on their coarser copy (its arcs suit the mesh size).
+        t_section, t_model = measurement.mc_proxy or (measurement.section, measurement.error_model)
+        n = draws if draws is not None else TORSION_DRAWS
+        tor, tor_u = evaluate_torsion(t_section, t_model, draws=n, seed=seed)
+        if not tor.converged:
+            warnings.append("torsion: the mesh refinement stopped before J and Cw settled to 0.1 %; "
+                            "their discretisation error is in the JSON and in u")
+        if tor_u is not None:
+            warnings.append(f"torsion: u of J, Cw, xs, ys comes from {n} Monte Carlo draws (u itself is known "
+                            f"to about {100 / (2 * n) ** 0.5:.0f} %)")
+    return Result(measurement=measurement, properties=props, warnings=tuple(warnings), uncertainty=unc,
+                  torsion=tor, torsion_uncertainty=tor_u)
 
 
 def result_json(result: Result, *, units: str = "mm", characteristic: bool = False) -> dict[str, Any]:
@@ -120,15 +168,16 @@ def result_json(result: Result, *, units: str = "mm", characteristic: bool = Fal
     """
     if units not in OUTPUT_UNITS:
         raise UnitError(f"units = {units!r}; use one of {' | '.join(OUTPUT_UNITS)}")
-    values = result.properties.values()
+    values = result.values()
     unc = result.uncertainty
+    u, p05 = result.u, result.p05
     props: dict[str, Any] = {}
-    for key in PROPERTY_KEYS:
+    for key in result.keys:
         entry: dict[str, Any] = {"value": _finite(from_mm(values[key], key, units))}
-        if key in result.u:
-            entry["u"] = _finite(from_mm(result.u[key], key, units))
-        if characteristic and unc is not None and key in unc.p05:
-            entry["p05"] = _finite(from_mm(unc.p05[key], key, units))
+        if key in u:
+            entry["u"] = _finite(from_mm(u[key], key, units))
+        if characteristic and key in p05:
+            entry["p05"] = _finite(from_mm(p05[key], key, units))
         entry["unit"] = property_unit(key, units)
         props[key] = entry
     section = result.measurement.section
@@ -150,8 +199,21 @@ def result_json(result: Result, *, units: str = "mm", characteristic: bool = Fal
             "plastic_axes": {"y": p.yp * f, "x": p.xp * f},
         },
         "uncertainty": _uncertainty_json(unc, units),
+        **({"torsion": _torsion_json(result, units)} if result.torsion is not None else {}),
         "warnings": list(result.warnings),
         "cautions": [CAUTION],
+    }
+
+
+def _torsion_json(result: Result, units: str) -> dict[str, Any]:
+    t = result.torsion
+    tu = result.torsion_uncertainty
+    return {
+        "method": "St Venant warping function, quadratic triangles, refined until J and Cw change < 0.1 %",
+        "triangles": t.triangles,
+        "converged": t.converged,
+        "discretisation_error": {k: _finite(from_mm(float(v), k, units)) for k, v in t.error.items()},
+        "monte_carlo": None if tu is None else {"draws": tu.draws, "seed": tu.seed},
     }
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from .properties import PROPERTY_KEYS, PROPERTY_NAMES
+from .properties import PROPERTY_NAMES
 from .result import CAUTION, Result
 from .units import from_mm, property_unit
 
@@ -43,10 +43,11 @@ def format_table(result: Result, *, units: str = "mm", budget: bool = False, cha
     if unc is not None:
         head.append(f"  values ± U: expanded uncertainty U = 2u (k = 2, about 95 % coverage); "
                     f"Monte Carlo {unc.draws} draws, seed {unc.seed}")
-    values = result.properties.values()
+    values = result.values()
     u = result.u
+    p05s = result.p05
     rows = []
-    for key in PROPERTY_KEYS:
+    for key in result.keys:
         v = from_mm(values[key], key, units)
         if key in u:
             text = format_measured(v, 2.0 * from_mm(u[key], key, units))
@@ -54,7 +55,7 @@ def format_table(result: Result, *, units: str = "mm", budget: bool = False, cha
             text = format_value(v)
         row = [key, text]
         if characteristic:
-            p05 = unc.p05.get(key) if unc is not None else None
+            p05 = p05s.get(key)
             row.append(format_value(from_mm(p05, key, units)) if p05 is not None else "n/a")
         row += [property_unit(key, units), PROPERTY_NAMES[key]]
         rows.append(row)

@@ -56,6 +56,7 @@ __all__ = [
     "BUDGET_KEYS",
     "DEFAULT_SEED",
     "affine_jacobian",
+    "draw_vertices",
     "rotate_model",
     "propagate_linear",
     "propagate_monte_carlo",
@@ -498,6 +499,16 @@ def affine_jacobian(build: Callable[[np.ndarray], Section], values: Sequence[flo
             raise ValueError(f"parameter {j}: the geometry is not affine in it")
         J[j] = (0.5 * (fwd + bwd)).T
     return J
+
+
+def draw_vertices(section: Section, model: ErrorModel, *, draws: int, seed: int = DEFAULT_SEED,
+                  props: Properties | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Vertex coordinates (D, N) of `draws` copies of `section` perturbed by `model` [mm].
+
+    For Monte Carlo evaluations outside this module (the torsion analysis).
+    """
+    p = props if props is not None else section_properties(section)
+    return _draw(_Context.of(section, p), model, np.random.default_rng(seed), draws)
 
 
 def rotate_model(model: ErrorModel, angle: float, origin: tuple[float, float]) -> ErrorModel:
