@@ -16,6 +16,7 @@ from .shapes import (ALPHA_MAX, SHAPE_KINDS, angle, arc_points, box, channel, i_
                      round_bar, tee, tube)
 from .sheet import parse_sheet, read_sheet, sheet_text, write_sheet
 from .stations import stations_section
+from .torsion import TORSION_KEYS, Torsion, evaluate_torsion, torsion_properties
 from .uncertainty import (BoundaryOffset, ErrorModel, HomographyError, PointNoise, Readings, ScaleError,
                           TiltAllowance, Uncertainty, evaluate_uncertainty, propagate_linear, propagate_monte_carlo)
 
@@ -30,6 +31,7 @@ __all__ = [
     "round_bar", "tube", "box",
     "read_sheet", "parse_sheet", "sheet_text", "write_sheet",
     "stations_section",
+    "TORSION_KEYS", "Torsion", "evaluate_torsion", "torsion_properties",
     "ErrorModel", "Readings", "PointNoise", "BoundaryOffset", "ScaleError", "HomographyError", "TiltAllowance",
     "Uncertainty", "evaluate_uncertainty", "propagate_linear", "propagate_monte_carlo",
 ]
