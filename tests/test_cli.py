@@ -125,7 +125,7 @@ def test_usage_errors_exit_2(tmp_path):
     assert r.returncode == 2 and "no such file" in r.stderr
     (tmp_path / "photo.jpg").write_bytes(b"\xff\xd8\xff")
     r = run("measure", str(tmp_path / "photo.jpg"))
-    assert r.returncode == 2 and "section sheets (.toml)" in r.stderr
+    assert r.returncode == 2 and "not a readable image; use a JPEG, PNG" in r.stderr
     r = run("measure", str(EXAMPLES / "waney-joist.toml"), "--units", "furlong")
     assert r.returncode == 2 and "invalid choice" in r.stderr
     r = run("measure", str(EXAMPLES / "waney-joist.toml"), "--json", str(tmp_path / "no" / "dir.json"))

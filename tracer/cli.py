@@ -100,7 +100,7 @@ def _parser() -> argparse.ArgumentParser:
         epilog=_MEASURE_EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    m.add_argument("input", metavar="INPUT", help="a section sheet (.toml)")
+    m.add_argument("input", metavar="INPUT", help="a section sheet (.toml) or a photo or scan of the cut end")
     m.add_argument("--json", metavar="PATH", help="write the result JSON to PATH, or to standard output with -")
     m.add_argument("--units", default="mm", choices=("mm", "cm", "m", "in"),
                    help="length unit of the table and the JSON (default mm)")
@@ -119,8 +119,35 @@ def _parser() -> argparse.ArgumentParser:
                         "200 for the torsion properties)")
     m.add_argument("--random-seed", type=int, default=None, metavar="N",
                    help="seed of the Monte Carlo draws (default fixed, so reruns print the same numbers)")
+    photo = m.add_argument_group("photo options")
+    photo.add_argument("--target", metavar="CxR:SIZE",
+                       help="a printed checkerboard in the plane of the cut face: inner corners across x down, "
+                            "and the square size, e.g. 6x4:10mm")
+    photo.add_argument("--scale", metavar="X1,Y1,X2,Y2=LENGTH",
+                       help="two image points (pixels, x right, y down) a known distance apart, e.g. 120,80,1620,95=100mm")
+    photo.add_argument("--dpi", type=float, metavar="N", help="the resolution of a flatbed scan")
+    photo.add_argument("--seed", metavar="X,Y", help="a pixel on the member, where several objects are in view")
+    photo.add_argument("--max-tilt", type=float, default=None, metavar="DEG",
+                       help="assumed bound of the camera's tilt to the face without a target (default 5)")
+    photo.add_argument("--texture", metavar="LENGTH",
+                       help="cracks and specks narrower than this are texture (default 2mm)")
+    photo.add_argument("--overlay", metavar="PATH.png", help="write the review picture of the trace")
     m.add_argument("--debug", action="store_true", help="show the traceback of an error")
     m.set_defaults(command="measure", run=_measure)
+
+    d = sub.add_parser(
+        "demo",
+        help="measure a bundled sample photo (synthetic) and write its review picture",
+        description="Measure one of the bundled sample photos (synthetic renders of invented members) with "
+                    "the settings of its sidecar file, print the table and write the review picture.",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    d.add_argument("--sample", default=None, metavar="NAME", help="which sample (default: the first); --list shows them")
+    d.add_argument("--list", action="store_true", help="list the samples")
+    d.add_argument("--overlay", default="tracer-demo-overlay.png", metavar="PATH.png",
+                   help="where to write the review picture (default tracer-demo-overlay.png)")
+    d.add_argument("--debug", action="store_true", help="show the traceback of an error")
+    d.set_defaults(command="demo", run=_demo)
     return parser
 
 
@@ -132,17 +159,28 @@ def _measure(args: argparse.Namespace) -> int:
     from .table import format_table
 
     path = Path(args.input)
-    if path.suffix.lower() != ".toml":
-        if not path.exists():
+    photo_opts = {k: getattr(args, k) for k in ("target", "scale", "dpi", "seed", "max_tilt", "texture", "overlay")
+                  if getattr(args, k) is not None}
+    pm = None
+    if path.suffix.lower() == ".toml":
+        if photo_opts:
+            raise InputError(f"--{next(iter(photo_opts)).replace('_', '-')} is a photo option; {path} is a sheet")
+        measurement = read_sheet(path)
+    else:
+        from .photo.pipeline import PHOTO_SUFFIXES, measure_photo
+
+        if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
             raise InputError(f"{path}: no such file")
-        raise InputError(f"{path}: not a section sheet; this version measures section sheets (.toml), "
-                         "see tracer measure --help")
+        kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "seed", "texture") if k in photo_opts}
+        if "max_tilt" in photo_opts:
+            kw["max_tilt"] = photo_opts["max_tilt"]
+        pm = measure_photo(path, name=getattr(args, "name", None), **kw)
+        measurement = pm.measurement
     from .uncertainty import DEFAULT_SEED
 
     seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
-    result = measure(read_sheet(path), align=args.align, draws=args.draws, seed=seed,
+    result = measure(measurement, align=args.align, draws=args.draws, seed=seed,
                      characteristic=args.characteristic, torsion=args.torsion)
-
     # Everything is computed before anything is written: an error never leaves a half output.
     outputs: list[tuple[str, str]] = []
     doc_text = None
@@ -156,11 +194,17 @@ def _measure(args: argparse.Namespace) -> int:
         outputs.append((args.save_sheet, sheet_text(result.measurement.section, name=result.name,
                                                     units=sheet_units,
                                                     uncertainty=dict(result.measurement.uncertainty) or None)))
-    for target, text in outputs:
+    overlay = getattr(args, "overlay", None)
+    for target in [t for t, _ in outputs] + ([overlay] if overlay else []):
         if not Path(target).parent.is_dir():
             raise InputError(f"{target}: its folder does not exist; create it or choose another path")
     for target, text in outputs:
         write_atomic(target, text)
+    if overlay and pm is not None:
+        from .photo.overlay import write_overlay
+
+        write_overlay(overlay, pm, result.properties)
+        outputs.append((overlay, ""))
 
     if args.json == "-":
         sys.stdout.write(doc_text or "")
@@ -179,6 +223,29 @@ def _positive_int(text: str) -> int:
     if n < 2:
         raise argparse.ArgumentTypeError(f"{n}: at least 2 draws are needed")
     return n
+
+
+def _demo(args: argparse.Namespace) -> int:
+    from .photo.samples import sample_names, sample_settings
+
+    names = sample_names()
+    if args.list:
+        for n in names:
+            print(n)
+        return 0
+    name = args.sample or names[0]
+    if name not in names:
+        from .errors import InputError
+
+        raise InputError(f"--sample {name!r} is not a bundled sample; use one of {', '.join(names)}")
+    path, settings = sample_settings(name)
+    print(f"  demo: {path.name} is a synthetic photo of an invented member; settings from its sidecar: "
+          + " ".join(f"--{k.replace('_', '-')} {v}" for k, v in settings.items()))
+    ns = _parser().parse_args(["measure", str(path), "--overlay", args.overlay]
+                              + [x for k, v in settings.items() for x in (f"--{k.replace('_', '-')}", str(v))])
+    ns.debug = args.debug
+    ns.name = f"{name} (synthetic photo of an invented member)"
+    return _measure(ns)
 
 
 if __name__ == "__main__":  # pragma: no cover

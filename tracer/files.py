@@ -7,7 +7,7 @@ import os
 import tempfile
 from pathlib import Path
 
-__all__ = ["write_atomic", "sha256_of"]
+__all__ = ["write_atomic", "write_atomic_bytes", "sha256_of"]
 
 
 def write_atomic(path: str | os.PathLike[str], text: str) -> None:
@@ -15,11 +15,19 @@ def write_atomic(path: str | os.PathLike[str], text: str) -> None:
 
     Readers see either the old file or the whole new one, never a part.
     """
+    write_atomic_bytes(path, text.encode("utf-8"))
+
+
+def write_atomic_bytes(path: str | os.PathLike[str], data: bytes) -> None:
+    """Write `data` to `path` atomically (see :func:`write_atomic`)."""
     target = Path(path)
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent or ".")
+    mask = os.umask(0)
+    os.umask(mask)
+    os.chmod(tmp, 0o666 & ~mask)                      # as an ordinary new file, not mkstemp's 0600
     try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as f:
-            f.write(text)
+        with os.fdopen(fd, "wb") as f:
+            f.write(data)
             f.flush()
             os.fsync(f.fileno())
         os.replace(tmp, target)

@@ -37,6 +37,8 @@ class Measurement:
     mc_proxy : (Section, ErrorModel), optional
         A coarser discretisation of the same geometry and its error model, for Monte Carlo
         draws (parametric shapes).
+    warnings : tuple of str
+        What the input stage found that a person must know (e.g. a missing lens profile).
     """
 
     section: Section
@@ -45,6 +47,7 @@ class Measurement:
     uncertainty: Mapping[str, float] = field(default_factory=dict)
     error_model: ErrorModel = field(default_factory=ErrorModel)
     mc_proxy: tuple[Section, ErrorModel] | None = None
+    warnings: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "source", MappingProxyType(dict(self.source)))

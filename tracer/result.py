@@ -115,7 +115,7 @@ def measure(measurement: Measurement, *, align: str | None = None, draws: int | 
     -------
     Result
     """
-    warnings: list[str] = []
+    warnings: list[str] = list(measurement.warnings)
     if align not in (None, "principal"):
         raise ValueError(f"align = {align!r}; use 'principal' or leave it out")
     props = section_properties(measurement.section)

@@ -1,0 +1,65 @@
+"""Speed of measuring a 12-megapixel JPEG end to end, against decoding it alone.
+
+Renders a synthetic 4000 x 3000 photo (an invented member beside a 9 x 6 target), then times,
+side by side in one process: cv2.imread of the file, and tracer's whole in-process path (load,
+target, segmentation, trace, properties and uncertainty); prints the ratio (goal: at most 3x).
+Then times `tracer measure PHOTO` as a whole process (goal: under 2 s).
+
+Run:  python benchmarks/photo.py
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import cv2
+
+from tracer.photo.pipeline import measure_photo
+from tracer.photo.synth import Scene, render
+from tracer.result import measure
+from tracer.shapes import rectangle
+
+
+def best(fn, repeat: int = 3) -> float:
+    out = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        fn()
+        out.append(time.perf_counter() - t0)
+    return min(out)
+
+
+def main() -> None:
+    scene = Scene(section=rectangle(b=120.0, h=240.0, wane={"top_left": 25.0}, chord_angle=0.05).translated(60, -40),
+                  target=(9, 6, 15.0), target_at=(-150.0, -60.0), px_per_mm=8.6, tilt=6.0, blur=1.5, margin=30.0)
+    r = render(scene)
+    with tempfile.TemporaryDirectory() as d:
+        path = Path(d) / "photo.jpg"
+        cv2.imwrite(str(path), r.image, [cv2.IMWRITE_JPEG_QUALITY, 92])
+        h, w = r.image.shape[:2]
+
+        def ours():
+            measure(measure_photo(path, target="9x6:15mm").measurement)
+
+        ours()
+        t_read = best(lambda: cv2.imread(str(path)))
+        t_ours = best(ours)
+        print(f"photo of {w} x {h} = {w * h / 1e6:.1f} MP, JPEG")
+        print(f"  cv2.imread alone                 : {t_read:6.2f} s")
+        print(f"  tracer, whole path in-process    : {t_ours:6.2f} s")
+        print(f"  ratio                            : {t_ours / t_read:6.1f}   (goal <= 3)")
+        runs = []
+        for _ in range(2):
+            t0 = time.perf_counter()
+            subprocess.run([sys.executable, "-m", "tracer", "measure", str(path), "--target", "9x6:15mm"],
+                           check=True, stdout=subprocess.DEVNULL)
+            runs.append(time.perf_counter() - t0)
+        print(f"  tracer measure PHOTO, a process  : {min(runs):6.2f} s   (goal < 2 s)")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,144 @@
+"""Reading photos and scans: formats, bit depths, EXIF orientation, DPI, a size guard."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+from ..files import sha256_of
+
+__all__ = ["Photo", "load_photo", "MAX_PIXELS"]
+
+#: Largest image accepted [pixels]; larger ones are refused before they are decoded.
+MAX_PIXELS = 120_000_000
+# Formats OpenCV decodes directly (8-bit, no alpha).
+_FAST = ("JPEG", "PNG", "BMP", "WEBP", "TIFF")
+
+
+@dataclass(frozen=True)
+class Photo:
+    """A decoded photo, upright, as a grey image for measuring and a colour one for pictures.
+
+    Attributes
+    ----------
+    gray : ndarray (H, W) float32
+        Luminance, 0 to 1 (8 and 16 bit inputs alike).
+    color : ndarray (H, W, 3) uint8
+        BGR picture for the review overlay.
+    alpha : ndarray (H, W) bool or None
+        Where a transparent image is opaque.
+    dpi : float or None
+        The resolution stored in the file (scans), if any.
+    path, sha256 : provenance.
+    """
+
+    gray: np.ndarray
+    color: np.ndarray
+    alpha: np.ndarray | None
+    dpi: float | None
+    path: str
+    sha256: str
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        return self.gray.shape
+
+
+def load_photo(path: str | Path, *, max_pixels: int = MAX_PIXELS) -> Photo:
+    """Read a JPEG, PNG, TIFF, WebP or BMP file, 8 or 16 bit, grey, colour or with alpha.
+
+    The EXIF orientation is applied (phones rotate by tag), and the DPI of a scan is read from
+    its metadata.
+
+    Raises
+    ------
+    InputError
+        The file is missing, not an image, unreadable, or larger than `max_pixels`.
+    """
+    from PIL import Image, ImageOps, UnidentifiedImageError
+
+    p = Path(path)
+    try:
+        data = p.read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"{p}: no such file") from None
+    except OSError as e:
+        raise InputError(f"{p}: cannot be read ({e.strerror})") from None
+    import io
+
+    Image.MAX_IMAGE_PIXELS = None          # our own guard below says it better
+    try:
+        im = Image.open(io.BytesIO(data))
+        w, h = im.size
+        if w * h > max_pixels:
+            raise InputError(f"{p}: {w} x {h} = {w * h / 1e6:.0f} megapixels is more than the "
+                             f"{max_pixels / 1e6:.0f} MP limit; scale the photo down first")
+        dpi = im.info.get("dpi")
+        fast = _decode_8bit(data) if im.mode in ("RGB", "L", "YCbCr", "CMYK") and im.format in _FAST else None
+        if fast is not None:
+            gray, color = fast
+            return Photo(gray=gray, color=color, alpha=None, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data))
+        im = ImageOps.exif_transpose(im)
+        arr, alpha = _to_array(im)
+    except InputError:
+        raise
+    except UnidentifiedImageError:
+        raise InputError(f"{p}: not a readable image; use a JPEG, PNG, TIFF, WebP or BMP file") from None
+    except (OSError, ValueError, SyntaxError) as e:
+        raise InputError(f"{p}: not a readable image ({e}); use a JPEG, PNG, TIFF, WebP or BMP file") from None
+    gray, color = _gray_and_color(arr)
+    return Photo(gray=gray, color=color, alpha=alpha, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data))
+
+
+def _dpi(dpi) -> float | None:
+    try:
+        v = float(dpi[0])
+    except (TypeError, ValueError, IndexError):
+        return None
+    return v if v > 1 else None
+
+
+def _decode_8bit(data: bytes) -> tuple[np.ndarray, np.ndarray] | None:
+    """OpenCV's decoder for 8-bit files without alpha (faster; it applies the EXIF orientation)."""
+    import cv2
+
+    color = cv2.imdecode(np.frombuffer(data, np.uint8), cv2.IMREAD_COLOR)
+    if color is None:
+        return None
+    gray = cv2.cvtColor(color, cv2.COLOR_BGR2GRAY).astype(np.float32)
+    gray *= 1.0 / 255.0
+    return gray, color
+
+
+def _to_array(im) -> tuple[np.ndarray, np.ndarray | None]:
+    """Pixels as float in 0..1, (H, W) or (H, W, 3), and an alpha mask if any."""
+    mode = im.mode
+    alpha = None
+    if mode in ("I;16", "I;16B", "I;16L", "I"):
+        a = np.asarray(im, dtype=np.float64)
+        top = 65535.0 if mode.startswith("I;16") or a.max() > 255 else 255.0
+        return (a / top).astype(np.float32), None
+    if mode == "F":
+        a = np.asarray(im, dtype=np.float32)
+        return a / max(float(a.max()), 1e-12), None
+    if mode in ("RGBA", "LA", "PA") or (mode == "P" and "transparency" in im.info):
+        rgba = np.asarray(im.convert("RGBA"))
+        alpha = rgba[..., 3] > 127
+        return (rgba[..., :3].astype(np.float32) / 255.0), alpha
+    if mode in ("L", "1"):
+        return np.asarray(im.convert("L"), dtype=np.float32) / 255.0, None
+    return np.asarray(im.convert("RGB"), dtype=np.float32) / 255.0, None
+
+
+def _gray_and_color(arr: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    if arr.ndim == 2:
+        gray = arr.astype(np.float32)
+        c = np.clip(gray * 255.0 + 0.5, 0, 255).astype(np.uint8)
+        return gray, np.stack([c, c, c], axis=2)
+    rgb = arr[..., :3]
+    gray = (0.299 * rgb[..., 0] + 0.587 * rgb[..., 1] + 0.114 * rgb[..., 2]).astype(np.float32)
+    color = np.clip(rgb[..., ::-1] * 255.0 + 0.5, 0, 255).astype(np.uint8)
+    return gray, np.ascontiguousarray(color)

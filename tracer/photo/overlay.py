@@ -1,0 +1,71 @@
+"""The review picture: the photo with what was traced, so a person sees at a glance if it is right.
+
+Drawn on the photo: the traced boundary (green) and holes (orange), the scale reference's marks
+(target corners or the two scale points, blue), the centroid, and the principal axes (major
+solid, minor dashed), mapped back from the mm plane into the image.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+import numpy as np
+
+from ..files import write_atomic_bytes
+from ..properties import Properties
+from .pipeline import PhotoMeasurement
+
+__all__ = ["overlay_image", "write_overlay"]
+
+
+def overlay_image(pm: PhotoMeasurement, props: Properties) -> np.ndarray:
+    """A BGR image of the photo with the trace, references, centroid and principal axes."""
+    import cv2
+
+    img = pm.photo.color.copy()
+    h, w = img.shape[:2]
+    lw = max(1, int(round(max(h, w) / 700)))
+    for i, ring in enumerate(pm.trace.rings_px):
+        colour = (60, 200, 60) if i == 0 else (0, 140, 255)
+        pts = np.round(ring * 16).astype(np.int32).reshape(-1, 1, 2)
+        cv2.polylines(img, [pts], True, colour, lw, lineType=cv2.LINE_AA, shift=4)
+    for x, y in pm.plane.marks:
+        cv2.circle(img, (int(round(x * 16)), int(round(y * 16))), 3 * lw * 16, (255, 120, 0), lw, cv2.LINE_AA, 4)
+    c = np.array([[props.cx, props.cy]])
+    x0, y0, x1, y1 = pm.measurement.section.bounds
+    half = 0.6 * math.hypot(x1 - x0, y1 - y0)
+    t = math.radians(props.theta)
+    for k, (dx, dy) in enumerate(((math.cos(t), math.sin(t)), (-math.sin(t), math.cos(t)))):
+        ends = pm.plane.to_px(np.array([[props.cx - half * dx, props.cy - half * dy],
+                                        [props.cx + half * dx, props.cy + half * dy]]))
+        p0, p1 = (tuple(int(round(v)) for v in e) for e in ends)
+        if k == 0:
+            cv2.line(img, p0, p1, (40, 40, 230), lw, cv2.LINE_AA)
+        else:
+            _dashed(cv2, img, ends, (40, 40, 230), lw)
+    cp = pm.plane.to_px(c)[0]
+    cv2.drawMarker(img, (int(round(cp[0])), int(round(cp[1]))), (40, 40, 230), cv2.MARKER_CROSS, 12 * lw, lw)
+    label = f"A = {props.A:.5g} mm2   I1 = {props.I1:.4g} mm4   I2 = {props.I2:.4g} mm4"
+    cv2.putText(img, label, (10, 24 * lw), cv2.FONT_HERSHEY_SIMPLEX, 0.6 * lw, (0, 0, 0), 3 * lw, cv2.LINE_AA)
+    cv2.putText(img, label, (10, 24 * lw), cv2.FONT_HERSHEY_SIMPLEX, 0.6 * lw, (255, 255, 255), lw, cv2.LINE_AA)
+    return img
+
+
+def write_overlay(path: str | Path, pm: PhotoMeasurement, props: Properties) -> None:
+    """Write the review picture as PNG, atomically."""
+    import cv2
+
+    ok, buf = cv2.imencode(".png", overlay_image(pm, props))
+    if not ok:
+        raise OSError(f"{path}: the review picture could not be encoded")
+    write_atomic_bytes(path, buf.tobytes())
+
+
+def _dashed(cv2, img, ends, colour, lw) -> None:
+    a, b = ends
+    n = 24
+    for i in range(0, n, 2):
+        p = a + (b - a) * i / n
+        q = a + (b - a) * (i + 1) / n
+        cv2.line(img, tuple(int(round(v)) for v in p), tuple(int(round(v)) for v in q), colour, lw, cv2.LINE_AA)

@@ -1,0 +1,163 @@
+"""A photo of the cut end to a :class:`~tracer.measurement.Measurement`: the whole chain.
+
+load -> plane map (target, two points or DPI) -> segmentation -> sub-pixel trace -> Section,
+with an ErrorModel made of what the image says about its own edges (a systematic boundary
+offset and an independent, correlated scatter), the plane map's uncertainty (the target fit's
+homography covariance, or the two-point and tilt allowances), and an allowance where no lens
+profile corrects distortion.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+from ..measurement import Measurement
+from ..uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError
+from ..units import parse_length
+from .contour import Trace, trace_boundary
+from .load import Photo, load_photo
+from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_target,
+                    parse_target, parse_two_points)
+from .segment import Segmentation, segment_member
+
+__all__ = ["PhotoMeasurement", "measure_photo", "PHOTO_SUFFIXES", "DEFAULT_TEXTURE_MM"]
+
+#: File suffixes read as photos.
+PHOTO_SUFFIXES = (".jpg", ".jpeg", ".png", ".tif", ".tiff", ".webp", ".bmp")
+#: Cracks, checks and specks narrower than this are texture, not edges [mm].
+DEFAULT_TEXTURE_MM = 2.0
+# Differences between the pixel and contour moments beyond this many times their expected size
+# (half a pixel all round) are reported.
+_CHECK_FACTOR = 3.0
+
+
+@dataclass(frozen=True)
+class PhotoMeasurement:
+    """The measurement and what it was made from, for the review picture."""
+
+    measurement: Measurement
+    photo: Photo
+    plane: PlaneMap
+    segmentation: Segmentation
+    trace: Trace
+
+
+def measure_photo(path: str | Path, *, target: str | None = None, scale: str | None = None,
+                  dpi: float | None = None, seed: str | None = None, max_tilt: float = DEFAULT_MAX_TILT,
+                  texture: str | None = None, name: str | None = None) -> PhotoMeasurement:
+    """Measure the member in the photo at `path`.
+
+    Parameters
+    ----------
+    path : str or Path
+    target : str, optional
+        ``CxR:SIZE``, a checkerboard of C x R inner corners of SIZE squares in the face's plane.
+    scale : str, optional
+        ``X1,Y1,X2,Y2=LENGTH``, two image points a known distance apart.
+    dpi : float, optional
+        The scan's resolution (else the file's own DPI, if no other scale is given).
+    seed : str, optional
+        ``X,Y``, a pixel on the member.
+    max_tilt : float
+        Assumed bound of the tilt [deg] without a target.
+    texture : str, optional
+        Texture size with unit (default 2mm): narrower cracks and specks are ignored.
+    name : str, optional
+        The member's name (default: the file's stem).
+
+    Raises
+    ------
+    InputError
+        Bad options or an unreadable file (exit status 2).
+    MeasurementError
+        No target found, nothing segmented, the member cut off (exit status 1).
+    """
+    photo = load_photo(path)
+    given = [k for k, v in (("--target", target), ("--scale", scale), ("--dpi", dpi)) if v is not None]
+    if len(given) > 1:
+        raise InputError(f"give one scale reference; this call has {' and '.join(given)}")
+    warnings: list[str] = []
+    if target is not None:
+        cols, rows, square = parse_target(target)
+        plane = map_from_target(photo.gray, cols, rows, square)
+    elif scale is not None:
+        pts, length = parse_two_points(scale)
+        plane = map_from_points(pts, length, max_tilt=max_tilt)
+    elif dpi is not None or photo.dpi is not None:
+        plane = map_from_dpi(float(dpi if dpi is not None else photo.dpi),
+                             stated="--dpi" if dpi is not None else "the file's metadata")
+    else:
+        raise InputError(f"{path}: no scale: give --target CxR:SIZE, --scale X1,Y1,X2,Y2=LENGTH or --dpi N")
+    warnings += plane.warnings
+    seed_xy = None
+    if seed is not None:
+        try:
+            sx, sy = (float(v) for v in seed.split(","))
+        except ValueError:
+            raise InputError(f"--seed {seed!r}: write a pixel position as X,Y") from None
+        seed_xy = (sx, sy)
+    centre = np.array(photo.shape[::-1], float) / 2
+    px_per_mm = 1.0 / plane.mm_per_px(centre)
+    texture_mm = parse_length(texture, field="--texture") if texture else DEFAULT_TEXTURE_MM
+    texture_px = max(2.0, texture_mm * px_per_mm)
+    seg = segment_member(photo.gray, texture_px=texture_px, seed=seed_xy, keep_out=plane.keep_out,
+                         alpha=photo.alpha)
+    smoothing = max(1.0, 0.25 * texture_px)
+    trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
+    edge = trace.edge
+
+    comps = [BoundaryOffset(edge["offset_mm"], label="edge offset (threshold, light)"),
+             PointNoise(edge["scatter_mm"], correlation_length=edge["correlation_mm"], direction="normal",
+                        label="edge scatter")]
+    comps += list(plane.components)
+    if plane.record["method"] == "two points":
+        allowance, note = _perspective_allowance(plane, trace, photo, max_tilt)
+        comps.append(ScaleError(allowance / np.sqrt(3.0), distribution="rectangular", label="perspective"))
+        warnings.append(note)
+    comps.append(ScaleError(LENS_ALLOWANCE / np.sqrt(3.0), distribution="rectangular", label="no lens profile"))
+    warnings.append(f"no lens profile: a {100 * LENS_ALLOWANCE:.1f} % allowance is added to the scale uncertainty")
+    warnings += _cross_check(trace)
+    p = Path(path)
+    source = {"kind": "photo", "path": str(p), "sha256": photo.sha256, "image_px": list(photo.shape[::-1]),
+              "scale": plane.record, "edge": {k: float(v) for k, v in edge.items()},
+              "texture_mm": texture_mm}
+    measurement = Measurement(section=trace.section, name=name or p.stem, source=source,
+                              error_model=ErrorModel(tuple(comps)), warnings=tuple(warnings))
+    return PhotoMeasurement(measurement=measurement, photo=photo, plane=plane, segmentation=seg, trace=trace)
+
+
+def _perspective_allowance(plane: PlaneMap, trace: Trace, photo: Photo, max_tilt: float) -> tuple[float, str]:
+    """Half-width of the scale change between the scale points and the member under a tilt.
+
+    Under a tilt θ the scale changes across the view by about tan θ · d / D, d the distance from
+    the scale points to the member and D the camera's distance; D is taken as 0.7 times the
+    photo's width (a field of view of about 70°, common for phones and compact cameras).
+    """
+    import math
+
+    mid = plane.marks.mean(axis=0)
+    centre = trace.rings_px[0].mean(axis=0)
+    d = float(np.hypot(*(plane.to_mm(np.array([centre]))[0] - plane.to_mm(np.array([mid]))[0])))
+    width_mm = photo.shape[1] * plane.mm_per_px(centre)
+    a = math.tan(math.radians(max_tilt)) * d / (0.7 * width_mm)
+    return a, (f"the scale points are {d:.0f} mm from the member: perspective may change the scale by up to "
+               f"{100 * a:.1f} % between them (allowed for); put the ruler against the member's face")
+
+
+def _cross_check(trace: Trace) -> list[str]:
+    """Moments over the mask's pixels against the contour integrals."""
+    from ..properties import section_properties
+
+    p = section_properties(trace.section)
+    px = trace.pixel_check
+    s = trace.edge["mm_per_px"]
+    expected = 0.5 * s * p.perimeter                      # half a pixel all round [mm^2]
+    out = []
+    if abs(px["A"] - p.A) > _CHECK_FACTOR * expected + 1e-9 * p.A:
+        out.append(f"the traced outline and the segmented pixels disagree on the area by "
+                   f"{100 * (px['A'] / p.A - 1):+.2f} %; check the review picture")
+    return out

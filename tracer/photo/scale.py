@@ -1,0 +1,254 @@
+"""From image pixels to the millimetre plane of the cut face, with the uncertainty of the map.
+
+Every method gives a :class:`PlaneMap`: a homography from pixels (column x right, row y down, as
+image viewers show) to the section's mm plane (x right, y up), the error-model components its
+uncertainty adds, and a record for the result's ``source.scale``.
+
+- a printed checkerboard (``--target CxR:SIZE``): inner corners found to sub-pixel accuracy, a
+  least-squares homography (perspective removed), its covariance from the corner residuals;
+- two image points a known distance apart (``--scale``): a similarity, with an allowance for an
+  unknown tilt (a one-sided cosine error) and for where the points were clicked;
+- a scanner's resolution (``--dpi``).
+
+References
+----------
+.. [1] R. Hartley and A. Zisserman, *Multiple View Geometry in Computer Vision*, 2nd ed.
+       Cambridge University Press, 2004, ch. 4 and 5 (DLT, covariance of the estimated H).
+       doi: 10.1017/CBO9780511811685.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from ..errors import InputError, MeasurementError
+from ..uncertainty import HomographyError, ScaleError, TiltAllowance
+from ..units import parse_length
+
+__all__ = ["PlaneMap", "parse_target", "parse_two_points", "map_from_target", "map_from_points",
+           "map_from_dpi", "LENS_ALLOWANCE", "DEFAULT_MAX_TILT"]
+
+#: Rectangular allowance on the scale where no lens profile corrects distortion (relative).
+LENS_ALLOWANCE = 0.003
+#: Assumed bound of the camera's tilt to the face when no target removes perspective [deg].
+DEFAULT_MAX_TILT = 5.0
+# A target fit whose corner residuals exceed this share of a square is refused.
+_POOR_FIT = 0.02
+# Standard uncertainty of a point read off an image by a person [px].
+_CLICK_U = 0.5
+# Relative standard uncertainty of a flatbed scanner's stated resolution (common practice).
+_SCANNER_U = 0.001
+
+
+@dataclass(frozen=True)
+class PlaneMap:
+    """Pixels -> mm plane.
+
+    Attributes
+    ----------
+    H : ndarray (3, 3)
+        Maps (column, row, 1) to the mm plane (x, y up), normalised H[2, 2] = 1.
+    components : tuple
+        Error-model components of the map.
+    record : dict
+        For ``source.scale`` in the result JSON.
+    keep_out : list of ndarray
+        Image polygons (px) that are scale references, never the member.
+    marks : ndarray
+        Points to draw on the review picture (target corners, clicked points) [px].
+    warnings : tuple of str
+    """
+
+    H: np.ndarray
+    components: tuple
+    record: dict[str, Any]
+    keep_out: list = field(default_factory=list)
+    marks: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
+    warnings: tuple[str, ...] = ()
+
+    def to_mm(self, px: np.ndarray) -> np.ndarray:
+        """Map (N, 2) pixel points to mm."""
+        q = np.column_stack([px, np.ones(len(px))]) @ self.H.T
+        return q[:, :2] / q[:, 2:]
+
+    def to_px(self, mm: np.ndarray) -> np.ndarray:
+        """Map (N, 2) mm points back to pixels."""
+        Hi = np.linalg.inv(self.H)
+        q = np.column_stack([mm, np.ones(len(mm))]) @ Hi.T
+        return q[:, :2] / q[:, 2:]
+
+    def mm_per_px(self, at_px: np.ndarray) -> float:
+        """Local linear scale at a pixel position [mm per px] (square root of the Jacobian)."""
+        e = 0.5
+        p = np.array([at_px, at_px + (e, 0.0), at_px + (0.0, e)])
+        q = self.to_mm(p)
+        J = np.column_stack([(q[1] - q[0]) / e, (q[2] - q[0]) / e])
+        return math.sqrt(abs(np.linalg.det(J)))
+
+
+def parse_target(text: str) -> tuple[int, int, float]:
+    """``6x4:10mm`` -> (6, 4, 10.0): inner corners across and down, square size [mm]."""
+    m = re.fullmatch(r"\s*(\d+)\s*[xX]\s*(\d+)\s*:\s*(.+)", text or "")
+    if not m:
+        raise InputError(f"--target {text!r}: write inner corners and square size, e.g. 6x4:10mm")
+    cols, rows = int(m.group(1)), int(m.group(2))
+    if cols < 2 or rows < 2:
+        raise InputError(f"--target {text!r}: a checkerboard needs at least 2 x 2 inner corners")
+    return cols, rows, parse_length(m.group(3), field="--target square size")
+
+
+def parse_two_points(text: str) -> tuple[np.ndarray, float]:
+    """``X1,Y1,X2,Y2=LENGTH`` -> (points (2, 2) [px], length [mm])."""
+    m = re.fullmatch(r"\s*([^=]+)=(.+)", text or "")
+    try:
+        if not m:
+            raise ValueError
+        xy = [float(v) for v in m.group(1).split(",")]
+        if len(xy) != 4:
+            raise ValueError
+    except ValueError:
+        raise InputError(f"--scale {text!r}: write two pixel positions and their distance, "
+                         "e.g. 120,80,1620,95=100mm") from None
+    pts = np.array(xy).reshape(2, 2)
+    if np.hypot(*(pts[1] - pts[0])) < 10:
+        raise InputError(f"--scale {text!r}: the two points are less than 10 px apart")
+    return pts, parse_length(m.group(2), field="--scale length")
+
+
+def map_from_target(gray: np.ndarray, cols: int, rows: int, square: float) -> PlaneMap:
+    """Find a checkerboard of `cols` x `rows` inner corners and fit the plane's homography.
+
+    Raises
+    ------
+    MeasurementError
+        No such checkerboard in view, or a fit too poor to trust (its residual is given).
+    """
+    import cv2
+
+    img8 = np.clip(gray * 255.0 + 0.5, 0, 255).astype(np.uint8)
+    corners = _find_corners(cv2, img8, cols, rows)
+    if corners is None:
+        raise MeasurementError(f"no {cols}x{rows} checkerboard target found; --target counts the inner corners "
+                               "(where four squares meet), across then down; check the count and that the "
+                               "whole target is in view")
+    j, i = np.divmod(np.arange(cols * rows), cols)
+    ideal = np.column_stack([i * square, j * square]).astype(np.float64)
+    H = _fit(corners, ideal)
+    # Keep the mm frame right-handed as the image is seen (x right, y up): never a mirror image.
+    if _handedness(H, corners.mean(axis=0)) < 0:
+        ideal[:, 1] *= -1
+        H = _fit(corners, ideal)
+    res = _project(H, corners) - ideal
+    n = len(corners)
+    rms = float(np.sqrt(np.mean(np.sum(res**2, axis=1))))
+    if rms > _POOR_FIT * square:
+        raise MeasurementError(f"the target fit is poor: corner residual {rms:.3g} mm RMS against {square:g} mm "
+                               "squares; is the target flat and in the plane of the cut face?")
+    cov = _homography_covariance(H, corners, ideal, res, dof=2 * n - 8)
+    # The printed sheet around the squares is a reference, never the member.
+    margin = 1.7 * square
+    sign = 1.0 if ideal[-1, 1] >= 0 else -1.0
+    box = np.array([[-margin, -sign * margin], [(cols - 1) * square + margin, -sign * margin],
+                    [(cols - 1) * square + margin, sign * ((rows - 1) * square + margin)],
+                    [-margin, sign * ((rows - 1) * square + margin)]])
+    Hi = np.linalg.inv(H)
+    q = np.column_stack([box, np.ones(4)]) @ Hi.T
+    keep_out = [q[:, :2] / q[:, 2:]]
+    record = {"method": "target", "inner_corners": [cols, rows], "square_mm": square,
+              "corner_residual_mm_rms": rms, "corners_found": n}
+    return PlaneMap(H=H, components=(HomographyError(H, cov, label="target fit"),), record=record,
+                    keep_out=keep_out, marks=corners)
+
+
+def map_from_points(points: np.ndarray, length: float, *, max_tilt: float = DEFAULT_MAX_TILT) -> PlaneMap:
+    """A similarity from two image points `length` [mm] apart; no perspective correction.
+
+    The uncertainty carries the click precision (0.5 px per coordinate), and a one-sided
+    allowance for an unknown tilt of up to `max_tilt` degrees.
+    """
+    d = float(np.hypot(*(points[1] - points[0])))
+    s = length / d
+    H = np.array([[s, 0.0, 0.0], [0.0, -s, 0.0], [0.0, 0.0, 1.0]])   # y up: the one flip
+    u_rel = math.sqrt(2.0) * _CLICK_U / d
+    comps = (ScaleError(u_rel, label="scale points"), TiltAllowance(max_tilt))
+    record = {"method": "two points", "points_px": points.tolist(), "length_mm": length,
+              "mm_per_px": s, "assumed_max_tilt_deg": max_tilt}
+    warn = (f"no perspective correction: an unknown tilt of up to {max_tilt:g} deg is allowed for "
+            "(--max-tilt changes it); a target removes it",)
+    return PlaneMap(H=H, components=comps, record=record, marks=points, warnings=warn)
+
+
+def map_from_dpi(dpi: float, *, stated: str) -> PlaneMap:
+    """A scan at `dpi` dots per inch (1 in = 25.4 mm)."""
+    s = 25.4 / dpi
+    H = np.array([[s, 0.0, 0.0], [0.0, -s, 0.0], [0.0, 0.0, 1.0]])
+    record = {"method": "dpi", "dpi": dpi, "from": stated, "mm_per_px": s}
+    return PlaneMap(H=H, components=(ScaleError(_SCANNER_U, label="scanner resolution"),), record=record)
+
+
+# ---------------------------------------------------------------------------------------------
+def _find_corners(cv2, img8: np.ndarray, cols: int, rows: int) -> np.ndarray | None:
+    """Inner corners (N, 2) [px], row by row; detected on a reduced copy, refined at full size."""
+    h, w = img8.shape
+    f = min(1.0, 1600.0 / max(h, w))
+    small = cv2.resize(img8, (int(w * f), int(h * f)), interpolation=cv2.INTER_AREA) if f < 1 else img8
+    flags = cv2.CALIB_CB_NORMALIZE_IMAGE | cv2.CALIB_CB_EXHAUSTIVE | cv2.CALIB_CB_ACCURACY
+    ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=flags)
+    if not ok:
+        return None
+    c = c.reshape(-1, 2).astype(np.float64)
+    if f < 1:
+        c = (c + 0.5) / f - 0.5
+        step = np.median(np.hypot(*np.diff(c[:cols], axis=0).T))
+        win = max(3, int(0.2 * step))
+        crit = (cv2.TERM_CRITERIA_EPS + cv2.TERM_CRITERIA_MAX_ITER, 50, 1e-3)
+        c = cv2.cornerSubPix(img8, c.astype(np.float32).reshape(-1, 1, 2), (win, win), (-1, -1), crit)
+        c = c.reshape(-1, 2).astype(np.float64)
+    return c
+
+
+def _fit(px: np.ndarray, mm: np.ndarray) -> np.ndarray:
+    """Least-squares homography px -> mm, refined on the mm residuals (Levenberg-Marquardt)."""
+    import cv2
+
+    H, _ = cv2.findHomography(px, mm, 0)
+    if H is None:
+        raise MeasurementError("the target's corners do not determine a homography")
+    from scipy.optimize import least_squares
+
+    h0 = (H / H[2, 2]).ravel()[:8]
+    sol = least_squares(lambda h: (_project(_h(h), px) - mm).ravel(), h0, method="lm")
+    return _h(sol.x)
+
+
+def _h(h: np.ndarray) -> np.ndarray:
+    return np.append(h, 1.0).reshape(3, 3)
+
+
+def _project(H: np.ndarray, px: np.ndarray) -> np.ndarray:
+    q = np.column_stack([px, np.ones(len(px))]) @ H.T
+    return q[:, :2] / q[:, 2:]
+
+
+def _handedness(H: np.ndarray, at: np.ndarray) -> float:
+    """Sign of d(mm)/d(column, -row): positive when the mm frame is not mirrored."""
+    e = 1.0
+    q = _project(H, np.array([at, at + (e, 0.0), at + (0.0, -e)]))
+    return float(np.linalg.det(np.column_stack([q[1] - q[0], q[2] - q[0]])))
+
+
+def _homography_covariance(H, px, mm, res, dof: int) -> np.ndarray:
+    """σ² (JᵀJ)⁻¹ of the eight entries, σ² from the residuals ([1], sec. 5.2)."""
+    h = H.ravel()[:8]
+    J = np.empty((2 * len(px), 8))
+    for k in range(8):
+        d = np.zeros(8)
+        d[k] = 1e-7 * max(1.0, abs(h[k]))
+        J[:, k] = ((_project(_h(h + d), px) - _project(_h(h - d), px)) / (2 * d[k])).ravel()
+    sigma2 = float(np.sum(res**2)) / max(dof, 1)
+    return sigma2 * np.linalg.pinv(J.T @ J)
