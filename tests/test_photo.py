@@ -213,3 +213,22 @@ def test_demo_runs_on_a_bundled_sample(tmp_path):
                          capture_output=True, text=True)
     assert run.returncode == 0, run.stderr
     assert "synthetic photo of an invented member" in run.stdout and (tmp_path / "demo.png").exists()
+
+
+def test_known_depth_sets_the_scale_or_cross_checks_a_target(tmp_path):
+    truth = _placed(rectangle(b=47, h=195, chord_angle=0.05))
+    r = render(Scene(section=truth, px_per_mm=5.0, tilt=2.0, target=None))
+    pm = measure_photo(_write(tmp_path, r.image, "alone.png"), known="depth=195mm")
+    res = measure(pm.measurement, draws=400)
+    want = section_properties(r.section).values()
+    assert pm.measurement.source["scale"]["method"] == "known"
+    for k in ("A", "I1", "I2"):
+        assert abs(res.properties.values()[k] - want[k]) <= 2 * res.u[k], k
+    r = render(Scene(section=truth, px_per_mm=5.0, tilt=2.0, **BIG_TARGET))
+    photo = _write(tmp_path, r.image)
+    checked = measure_photo(photo, target="9x6:15mm", known="depth=195mm")
+    diff = checked.measurement.source["scale"]["known_check"]["difference_percent"]
+    assert abs(diff) < 0.5
+    assert any(w.startswith("cross-check: the traced depth") for w in checked.measurement.warnings)
+    with pytest.raises(InputError, match="write depth=LENGTH or width=LENGTH"):
+        measure_photo(photo, known="height=3mm")

@@ -126,6 +126,8 @@ def _parser() -> argparse.ArgumentParser:
     photo.add_argument("--scale", metavar="X1,Y1,X2,Y2=LENGTH",
                        help="two image points (pixels, x right, y down) a known distance apart, e.g. 120,80,1620,95=100mm")
     photo.add_argument("--dpi", type=float, metavar="N", help="the resolution of a flatbed scan")
+    photo.add_argument("--known", metavar="depth=LENGTH|width=LENGTH",
+                       help="one caliper reading of the member: the scale alone, or a cross-check with a target")
     photo.add_argument("--seed", metavar="X,Y", help="a pixel on the member, where several objects are in view")
     photo.add_argument("--max-tilt", type=float, default=None, metavar="DEG",
                        help="assumed bound of the camera's tilt to the face without a target (default 5)")
@@ -148,6 +150,21 @@ def _parser() -> argparse.ArgumentParser:
                    help="where to write the review picture (default tracer-demo-overlay.png)")
     d.add_argument("--debug", action="store_true", help="show the traceback of an error")
     d.set_defaults(command="demo", run=_demo)
+
+    t = sub.add_parser(
+        "target",
+        help="write a printable, true-scale checkerboard target with a 100 mm check bar",
+        description="Write a checkerboard target to print at 100 %, as SVG or PDF by the file's suffix. "
+                    "Measure the printed check bar: it must be 100 mm.",
+        epilog="examples:\n  tracer target --out target.pdf\n  tracer target --board 6x4:15mm --out small.svg",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    t.add_argument("--out", required=True, metavar="FILE.svg|FILE.pdf", help="where to write the target")
+    t.add_argument("--board", default="9x6:20mm", metavar="CxR:SIZE",
+                   help="inner corners across x down and the square size (default 9x6:20mm)")
+    t.add_argument("--paper", default="a4", choices=("a4", "letter"), help="paper, landscape (default a4)")
+    t.add_argument("--debug", action="store_true", help="show the traceback of an error")
+    t.set_defaults(command="target", run=_target)
     return parser
 
 
@@ -159,7 +176,8 @@ def _measure(args: argparse.Namespace) -> int:
     from .table import format_table
 
     path = Path(args.input)
-    photo_opts = {k: getattr(args, k) for k in ("target", "scale", "dpi", "seed", "max_tilt", "texture", "overlay")
+    photo_opts = {k: getattr(args, k)
+                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "overlay")
                   if getattr(args, k) is not None}
     pm = None
     if path.suffix.lower() == ".toml":
@@ -171,7 +189,7 @@ def _measure(args: argparse.Namespace) -> int:
 
         if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
             raise InputError(f"{path}: no such file")
-        kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "seed", "texture") if k in photo_opts}
+        kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture") if k in photo_opts}
         if "max_tilt" in photo_opts:
             kw["max_tilt"] = photo_opts["max_tilt"]
         pm = measure_photo(path, name=getattr(args, "name", None), **kw)
@@ -223,6 +241,20 @@ def _positive_int(text: str) -> int:
     if n < 2:
         raise argparse.ArgumentTypeError(f"{n}: at least 2 draws are needed")
     return n
+
+
+def _target(args: argparse.Namespace) -> int:
+    from .errors import InputError
+    from .photo.scale import parse_target
+    from .photo.target import write_target
+
+    cols, rows, square = parse_target(args.board)
+    if not Path(args.out).parent.is_dir():
+        raise InputError(f"{args.out}: its folder does not exist; create it or choose another path")
+    write_target(args.out, cols, rows, square, paper=args.paper)
+    print(f"  wrote {args.out}: {cols} x {rows} inner corners of {square:g} mm; print at 100 % and check that the "
+          f"bar measures 100 mm; measure with --target {args.board}")
+    return 0
 
 
 def _demo(args: argparse.Namespace) -> int:

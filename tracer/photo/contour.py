@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..errors import MeasurementError
+from ..errors import GeometryError, MeasurementError
 from ..geometry import Section
 from .scale import PlaneMap
 from .segment import Segmentation
@@ -127,7 +127,11 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
     holes = [rings[k] for k in order[1:] if outer_poly.contains(shapely.Polygon(rings[k]))]
     outline_mm = plane.to_mm(outer_ring)
     holes_mm = [plane.to_mm(hh) for hh in holes]
-    section = Section(outline_mm, holes_mm)
+    try:
+        section = Section(outline_mm, holes_mm)
+    except GeometryError as e:
+        raise MeasurementError(f"the traced boundary is not a valid section ({e}); look at the review picture "
+                               "(--overlay) and give --seed X,Y on the member") from None
 
     # Edge statistics along the traced boundary (in the box's pixels).
     gy, gx = np.gradient(f)

@@ -16,7 +16,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..measurement import Measurement
-from ..uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError
+from ..uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError, TiltAllowance
 from ..units import parse_length
 from .contour import Trace, trace_boundary
 from .load import Photo, load_photo
@@ -47,8 +47,9 @@ class PhotoMeasurement:
 
 
 def measure_photo(path: str | Path, *, target: str | None = None, scale: str | None = None,
-                  dpi: float | None = None, seed: str | None = None, max_tilt: float = DEFAULT_MAX_TILT,
-                  texture: str | None = None, name: str | None = None) -> PhotoMeasurement:
+                  dpi: float | None = None, known: str | None = None, seed: str | None = None,
+                  max_tilt: float = DEFAULT_MAX_TILT, texture: str | None = None,
+                  name: str | None = None) -> PhotoMeasurement:
     """Measure the member in the photo at `path`.
 
     Parameters
@@ -60,6 +61,10 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         ``X1,Y1,X2,Y2=LENGTH``, two image points a known distance apart.
     dpi : float, optional
         The scan's resolution (else the file's own DPI, if no other scale is given).
+    known : str, optional
+        ``depth=LENGTH`` or ``width=LENGTH``: one caliper reading of the member's overall depth
+        (image up-down) or width (image across). Alone it sets the scale; with a target it is a
+        cross-check, reported in per cent.
     seed : str, optional
         ``X,Y``, a pixel on the member.
     max_tilt : float
@@ -87,11 +92,17 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     elif scale is not None:
         pts, length = parse_two_points(scale)
         plane = map_from_points(pts, length, max_tilt=max_tilt)
-    elif dpi is not None or photo.dpi is not None:
+    elif dpi is not None or (photo.dpi is not None and known is None):
         plane = map_from_dpi(float(dpi if dpi is not None else photo.dpi),
                              stated="--dpi" if dpi is not None else "the file's metadata")
+    elif known is not None:
+        plane = None                                   # set from the member itself, below
     else:
-        raise InputError(f"{path}: no scale: give --target CxR:SIZE, --scale X1,Y1,X2,Y2=LENGTH or --dpi N")
+        raise InputError(f"{path}: no scale: give --target CxR:SIZE, --scale X1,Y1,X2,Y2=LENGTH, --dpi N "
+                         "or --known depth=LENGTH")
+    known_dim = _parse_known(known) if known is not None else None
+    if plane is None:
+        plane = _pixels_plane()
     warnings += plane.warnings
     seed_xy = None
     if seed is not None:
@@ -104,10 +115,25 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     px_per_mm = 1.0 / plane.mm_per_px(centre)
     texture_mm = parse_length(texture, field="--texture") if texture else DEFAULT_TEXTURE_MM
     texture_px = max(2.0, texture_mm * px_per_mm)
+    if plane.record["method"] == "pixels":        # no scale yet: texture as a share of the photo
+        texture_px = max(2.0, 0.002 * float(np.hypot(*photo.shape)))
     seg = segment_member(photo.gray, texture_px=texture_px, seed=seed_xy, keep_out=plane.keep_out,
                          alpha=photo.alpha)
     smoothing = max(1.0, 0.25 * texture_px)
     trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
+    if known_dim is not None:
+        which, length = known_dim
+        x0, y0, x1, y1 = trace.section.bounds
+        measured = (y1 - y0) if which == "depth" else (x1 - x0)
+        if plane.record["method"] == "pixels":
+            plane = _known_plane(which, length, measured, max_tilt)
+            warnings += plane.warnings
+            trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
+        else:
+            diff = 100.0 * (measured / length - 1.0)
+            plane.record["known_check"] = {which: length, "measured_mm": measured, "difference_percent": diff}
+            warnings.append(f"cross-check: the traced {which} is {measured:.1f} mm against the {length:.1f} mm read; "
+                            f"{diff:+.2f} %")
     edge = trace.edge
 
     comps = [BoundaryOffset(edge["offset_mm"], label="edge offset (threshold, light)"),
@@ -128,6 +154,37 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     measurement = Measurement(section=trace.section, name=name or p.stem, source=source,
                               error_model=ErrorModel(tuple(comps)), warnings=tuple(warnings))
     return PhotoMeasurement(measurement=measurement, photo=photo, plane=plane, segmentation=seg, trace=trace)
+
+
+def _parse_known(text: str) -> tuple[str, float]:
+    which, _, value = (text or "").partition("=")
+    if which not in ("depth", "width") or not value:
+        raise InputError(f"--known {text!r}: write depth=LENGTH or width=LENGTH, e.g. depth=195mm")
+    return which, parse_length(value, field="--known")
+
+
+def _pixels_plane() -> PlaneMap:
+    """Pixels as they are, y turned up: the frame of a trace before its scale is known."""
+    return PlaneMap(H=np.diag([1.0, -1.0, 1.0]), components=(), record={"method": "pixels"})
+
+
+def _known_plane(which: str, length: float, extent_px: float, max_tilt: float) -> PlaneMap:
+    """The scale from one caliper reading of the member's own depth or width.
+
+    The reading is taken as read to 0.1 mm (u = 0.1/√12 mm); each end of the traced extent is
+    located to 0.5 px; no perspective correction, so the tilt allowance applies.
+    """
+    import math
+
+    s = length / extent_px
+    u_rel = math.hypot(0.1 / math.sqrt(12) / length, math.sqrt(2) * 0.5 / extent_px)
+    H = np.diag([s, -s, 1.0])
+    record = {"method": "known", which: length, "extent_px": extent_px, "mm_per_px": s,
+              "assumed_max_tilt_deg": max_tilt}
+    warn = (f"scale from the member's own {which} ({length:g} mm, taken as read to 0.1 mm); no perspective "
+            f"correction: an unknown tilt of up to {max_tilt:g} deg is allowed for",)
+    return PlaneMap(H=H, components=(ScaleError(u_rel, label=f"known {which}"), TiltAllowance(max_tilt)),
+                    record=record, warnings=warn)
 
 
 def _perspective_allowance(plane: PlaneMap, trace: Trace, photo: Photo, max_tilt: float) -> tuple[float, str]:

@@ -32,9 +32,10 @@ class Scene:
     section : Section
         The member's cut face, in the target's frame (the target's first inner corner at the
         origin, its rows along +x).
-    target : (cols, rows, square)
+    target : (cols, rows, square) or None
         Inner corners of the printed checkerboard and its square size [mm]; its squares span
-        ``[-square, cols*square] x [-square, rows*square]`` before `target_at` moves it.
+        ``[-square, cols*square] x [-square, rows*square]`` before `target_at` moves it. None: no
+        target in view (the truth frame is then the section's own).
     target_at : (dx, dy)
         Where the target's first inner corner lies [mm] (the section stays put; the truth frame
         is the target's).
@@ -103,10 +104,12 @@ def render(scene: Scene) -> Render:
     import cv2
 
     rng = np.random.default_rng(scene.seed)
-    cols, rows, sq = scene.target
-    tx, ty = scene.target_at
+    cols, rows, sq = scene.target if scene.target is not None else (0, 0, 0.0)
+    tx, ty = scene.target_at if scene.target is not None else (0.0, 0.0)
     sx0, sy0, sx1, sy1 = scene.section.bounds
     paper = (np.array([tx - 1.6 * sq, ty - 1.6 * sq]), np.array([tx + (cols + 0.6) * sq, ty + (rows + 0.6) * sq]))
+    if scene.target is None:
+        paper = (np.array([sx0, sy0]), np.array([sx1, sy1]))
     lo = np.minimum(paper[0], (sx0, sy0)) - scene.margin
     hi = np.maximum(paper[1], (sx1, sy1)) + scene.margin
     ruler_at = None
@@ -152,10 +155,12 @@ def render(scene: Scene) -> Render:
     else:
         face = 120.0 + _texture(rng, H, W, scale=0.8 * scene.px_per_mm, amplitude=8.0)
     img = img * (1 - m) + face * m
-    paint = [([_rect(*paper)], 235.0)]
-    squares = [_rect(np.array([tx + (c - 1) * sq, ty + (r - 1) * sq]), np.array([tx + c * sq, ty + r * sq]))
-               for r in range(rows + 1) for c in range(cols + 1) if (r + c) % 2 == 0]
-    paint.append((squares, 25.0))
+    paint = []
+    if scene.target is not None:
+        paint.append(([_rect(*paper)], 235.0))
+        squares = [_rect(np.array([tx + (c - 1) * sq, ty + (r - 1) * sq]), np.array([tx + c * sq, ty + r * sq]))
+                   for r in range(rows + 1) for c in range(cols + 1) if (r + c) % 2 == 0]
+        paint.append((squares, 25.0))
     if ruler_at is not None:
         start, length = ruler_at
         paint.append(([_rect(start, start + (length, 25.0))], 225.0))
