@@ -18,6 +18,7 @@ from pathlib import Path
 import numpy as np
 import shapely
 
+from timing import best
 from tracer.geometry import Section
 from tracer.properties import area_moments
 
@@ -27,16 +28,6 @@ def wavy_ring(n: int) -> np.ndarray:
     t = np.linspace(0.0, 2.0 * np.pi, n, endpoint=False)
     r = 100.0 + 10.0 * np.sin(37.0 * t)
     return np.column_stack([r * np.cos(t) + 1500.0, r * np.sin(t) + 900.0])
-
-
-def best(fn, repeat: int) -> float:
-    fn()  # warm up
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return min(times)
 
 
 def main() -> None:

@@ -18,19 +18,11 @@ from pathlib import Path
 
 import cv2
 
+from timing import best
 from tracer.photo.pipeline import measure_photo
 from tracer.photo.synth import Scene, render
 from tracer.result import measure
 from tracer.shapes import rectangle
-
-
-def best(fn, repeat: int = 3) -> float:
-    out = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        out.append(time.perf_counter() - t0)
-    return min(out)
 
 
 def main() -> None:
@@ -45,9 +37,8 @@ def main() -> None:
         def ours():
             measure(measure_photo(path, target="9x6:15mm").measurement)
 
-        ours()
-        t_read = best(lambda: cv2.imread(str(path)))
-        t_ours = best(ours)
+        t_read = best(lambda: cv2.imread(str(path)), 3)
+        t_ours = best(ours, 3)
         print(f"photo of {w} x {h} = {w * h / 1e6:.1f} MP, JPEG")
         print(f"  cv2.imread alone                 : {t_read:6.2f} s")
         print(f"  tracer, whole path in-process    : {t_ours:6.2f} s")

@@ -20,6 +20,7 @@ import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 
+from timing import best  # noqa: E402
 from tracer.ensemble import ensemble_properties  # noqa: E402
 from tracer.geometry import Section  # noqa: E402
 from tracer.properties import section_properties  # noqa: E402
@@ -32,16 +33,6 @@ def traced_outline(n: int) -> Section:
     t = np.linspace(0.0, 2.0 * np.pi, n, endpoint=False)
     r = 1.0 + 0.05 * np.sin(7 * t) + 0.02 * np.cos(23 * t)
     return Section(np.column_stack([150 * r * np.cos(t) + 400, 100 * r * np.sin(t) + 250]))
-
-
-def best(fn, repeat: int = 5) -> float:
-    fn()
-    out = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        out.append(time.perf_counter() - t0)
-    return min(out)
 
 
 def main() -> None:

@@ -7,7 +7,20 @@ import os
 import tempfile
 from pathlib import Path
 
-__all__ = ["write_atomic", "write_atomic_bytes", "sha256_of"]
+__all__ = ["read_input", "write_atomic", "write_atomic_bytes", "sha256_of"]
+
+
+def read_input(path: str | os.PathLike[str], error: type[Exception]) -> bytes:
+    """The bytes of an input file, or `error` saying plainly why it cannot be read."""
+    p = Path(path)
+    try:
+        return p.read_bytes()
+    except FileNotFoundError:
+        raise error(f"{p}: no such file") from None
+    except IsADirectoryError:
+        raise error(f"{p}: is a folder, not a file") from None
+    except OSError as e:
+        raise error(f"{p}: cannot be read ({e.strerror})") from None
 
 
 def write_atomic(path: str | os.PathLike[str], text: str) -> None:

@@ -12,13 +12,33 @@ from __future__ import annotations
 
 import re
 from collections.abc import Iterable, Iterator, Sequence
+from contextlib import contextmanager
+from contextvars import ContextVar
 from typing import Any
 
 import numpy as np
 
 from .errors import GeometryError
 
-__all__ = ["Section", "Part"]
+__all__ = ["Section", "Part", "trusted_geometry"]
+
+# Inside trusted_geometry(), sections are normalised but not checked for crossings.
+_TRUSTED: ContextVar[bool] = ContextVar("tracer_trusted_geometry", default=False)
+
+
+@contextmanager
+def trusted_geometry():
+    """Build sections without the (costly) crossing and containment checks.
+
+    For geometry that is a small perturbation of a section already validated (Jacobians by
+    differences, Monte Carlo copies): rings are still cleaned and oriented, and the result still
+    is a Section, but a crossing would not be reported.
+    """
+    token = _TRUSTED.set(True)
+    try:
+        yield
+    finally:
+        _TRUSTED.reset(token)
 
 # Relative size below which an area counts as zero, against the square of the ring's extent.
 _ZERO_AREA = 1e-12
@@ -117,7 +137,7 @@ class Section:
         return cls.from_parts(parts)
 
     def _init(self, parts: list[Part]) -> None:
-        if len(parts) > 1:
+        if len(parts) > 1 and not _TRUSTED.get():
             _check_parts_apart(parts)
         object.__setattr__(self, "_parts", tuple(parts))
         object.__setattr__(self, "_packed", None)
@@ -297,7 +317,7 @@ def _make_part(outline: Any, holes: list[Any], *, prefix: str) -> Part:
     holes_clean = [_clean_ring(h, f"{prefix}hole {i}") for i, h in enumerate(holes, start=1)]
     ext = _oriented(ext, ccw=True)
     holes_clean = [_oriented(h, ccw=False) for h in holes_clean]
-    if holes_clean:
+    if holes_clean and not _TRUSTED.get():
         shell = shapely.Polygon(ext)
         hole_polys = [shapely.Polygon(h) for h in holes_clean]
         for i, hp in enumerate(hole_polys, start=1):
@@ -322,17 +342,12 @@ def _make_part(outline: Any, holes: list[Any], *, prefix: str) -> Part:
 def _clean_ring(points: Any, label: str) -> np.ndarray:
     """Check one ring's points and return them as a float (n, 2) array without repeats."""
     try:
-        raw = [tuple(p) for p in points]
-    except TypeError:
-        raise GeometryError(f"{label}: expected a list of (x, y) points, got {type(points).__name__}") from None
-    for i, p in enumerate(raw, start=1):
-        if len(p) != 2:
-            raise GeometryError(f"{label} point {i} is not an (x, y) pair: {list(p)!r}")
-        try:
-            float(p[0]), float(p[1])
-        except (TypeError, ValueError):
-            raise GeometryError(f"{label} point {i} is not a pair of numbers: {list(p)!r}") from None
-    xy = np.asarray(raw, dtype=float).reshape(-1, 2)
+        xy = np.asarray(points, dtype=float)
+    except (TypeError, ValueError):
+        xy = None
+    if xy is None or xy.ndim != 2 or xy.shape[1] != 2:
+        _explain_points(points, label)                # names the first bad point
+        xy = np.asarray(points, dtype=float).reshape(-1, 2)
     bad = np.flatnonzero(~np.isfinite(xy).all(axis=1))
     if bad.size:
         i = int(bad[0])
@@ -350,10 +365,26 @@ def _clean_ring(points: Any, label: str) -> np.ndarray:
     spread = np.linalg.svd(xy - xy.mean(axis=0), compute_uv=False)[-1]
     if spread <= np.sqrt(_ZERO_AREA) * extent * np.sqrt(len(xy)):
         raise GeometryError(f"{label} has zero area: its {len(xy)} points lie on one line")
-    _check_simple(xy, label)
+    if not _TRUSTED.get():
+        _check_simple(xy, label)
     if abs(_signed_area(xy)) <= _ZERO_AREA * extent * extent:
         raise GeometryError(f"{label} has zero area")
     return np.ascontiguousarray(xy)
+
+
+def _explain_points(points: Any, label: str) -> None:
+    """Raise naming the first point that is not an (x, y) pair of numbers."""
+    try:
+        raw = [tuple(p) for p in points]
+    except TypeError:
+        raise GeometryError(f"{label}: expected a list of (x, y) points, got {type(points).__name__}") from None
+    for i, p in enumerate(raw, start=1):
+        if len(p) != 2:
+            raise GeometryError(f"{label} point {i} is not an (x, y) pair: {list(p)!r}")
+        try:
+            float(p[0]), float(p[1])
+        except (TypeError, ValueError):
+            raise GeometryError(f"{label} point {i} is not a pair of numbers: {list(p)!r}") from None
 
 
 def _check_simple(xy: np.ndarray, label: str) -> None:

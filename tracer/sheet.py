@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import GeometryError, ShapeError, SheetError
-from .files import sha256_of, write_atomic
+from .files import read_input, sha256_of, write_atomic
 from .geometry import Section
 from .measurement import Measurement
 from .shapes import CORNERS, SHAPE_KINDS, article, make_shape
@@ -58,13 +58,7 @@ def read_sheet(path: str | Path) -> Measurement:
         with the file name and names the field.
     """
     p = Path(path)
-    try:
-        data = p.read_bytes()
-    except FileNotFoundError:
-        raise SheetError(f"{p}: no such file") from None
-    except OSError as e:
-        raise SheetError(f"{p}: cannot be read ({e.strerror})") from None
-    return parse_sheet(data, path=p)
+    return parse_sheet(read_input(p, SheetError), path=p)
 
 
 def parse_sheet(data: bytes | str, *, path: str | Path | None = None) -> Measurement:

@@ -36,7 +36,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .geometry import Section
+from .geometry import Section, trusted_geometry
 from .mesh import Mesh, triangulate
 from .properties import section_properties
 
@@ -241,7 +241,8 @@ class TorsionModel:
             moved[b] += db
             if L_ii is not None:
                 moved[interior] += -L_ii.solve(np.asarray(L_ib @ db))
-            props = section_properties(self.section.with_vertices(np.column_stack([x[d], y[d]])))
+            with trusted_geometry():       # a small perturbation of the validated section
+                props = section_properties(self.section.with_vertices(np.column_stack([x[d], y[d]])))
             K, f = _assemble(moved, mesh.triangles, self._dofs, (props.cx, props.cy))
             sol, info = cg(K[1:, 1:].tocsr(), f[1:], M=pre, rtol=1e-12, maxiter=200)
             omega = np.concatenate([[0.0], sol])

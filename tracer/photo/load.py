@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from ..files import sha256_of
+from ..files import read_input, sha256_of
 
 __all__ = ["Photo", "load_photo", "MAX_PIXELS"]
 
@@ -60,14 +60,10 @@ def load_photo(path: str | Path, *, max_pixels: int = MAX_PIXELS) -> Photo:
     """
     from PIL import Image, ImageOps, UnidentifiedImageError
 
-    p = Path(path)
-    try:
-        data = p.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"{p}: no such file") from None
-    except OSError as e:
-        raise InputError(f"{p}: cannot be read ({e.strerror})") from None
     import io
+
+    p = Path(path)
+    data = read_input(p, InputError)
 
     Image.MAX_IMAGE_PIXELS = None          # our own guard below says it better
     try:
