@@ -16,7 +16,6 @@ for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):   # o
     os.environ.setdefault(var, "1")
 
 import argparse  # noqa: E402
-import time  # noqa: E402
 
 import numpy as np  # noqa: E402
 

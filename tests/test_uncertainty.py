@@ -10,7 +10,7 @@ import pytest
 from tracer.errors import InputError
 from tracer.geometry import Section
 from tracer.properties import PROPERTY_KEYS, section_properties
-from tracer.shapes import angle, i_section, make_shape, rectangle, tube
+from tracer.shapes import angle, make_shape, rectangle
 from tracer.uncertainty import (BoundaryOffset, ErrorModel, HomographyError, PointNoise, Readings, ScaleError,
                                 TiltAllowance, affine_jacobian, evaluate_uncertainty, propagate_linear,
                                 propagate_monte_carlo, resolution_u, rotate_model)

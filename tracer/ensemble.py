@@ -14,7 +14,6 @@ import numpy as np
 
 from .geometry import Section
 from .properties import PROPERTY_KEYS, Properties
-from .sensitivity import ring_neighbours
 
 __all__ = ["ensemble_properties", "ENSEMBLE_MOMENTS"]
 

@@ -8,7 +8,7 @@ the fixed schema ``tracer/result/1`` of DESIGN.md; this module adds the ``geomet
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 from ._version import __version__
