@@ -83,12 +83,14 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
     offset = np.array([c0, r0], dtype=float)
     f = cv2.GaussianBlur((gray[r0:r1, c0:c1] / seg.light[r0:r1, c0:c1]).astype(np.float32), (0, 0), _EDGE_SIGMA)
     mask = seg.mask[r0:r1, c0:c1].astype(np.uint8)
-    disk = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * band_r + 1, 2 * band_r + 1))
-    inner = cv2.erode(mask, disk).astype(bool)
-    outer = ~cv2.dilate(mask, disk).astype(bool)
+    # Distances to the mask's edge, inside and out (one pass each, instead of wide dilations).
+    d_in = cv2.distanceTransform(mask, cv2.DIST_L2, 5)
+    d_out = cv2.distanceTransform(1 - mask, cv2.DIST_L2, 5)
+    inner = d_in > band_r
+    outer = d_out > band_r
     band = ~inner & ~outer
     level_in = float(np.median(f[inner])) if inner.any() else float(np.median(f[mask.astype(bool)]))
-    ring_out = outer & cv2.dilate(mask, cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (4 * band_r + 1,) * 2)).astype(bool)
+    ring_out = outer & (d_out <= 2 * band_r)
     level_out = float(np.median(f[ring_out])) if ring_out.any() else float(seg.threshold)
     level = 0.5 * (level_in + level_out)
     # Local levels on either side (uneven light moves both): the edge is where the image
@@ -184,7 +186,7 @@ def _noise(f: np.ndarray, inner: np.ndarray, outer: np.ndarray) -> float:
 def _pixel_moments(mask: np.ndarray, plane: PlaneMap) -> dict:
     """A and centroidal second moments summed over pixels, each a small area at its place."""
     ys, xs = np.nonzero(mask)
-    step = max(1, len(xs) // 400_000)
+    step = max(1, len(xs) // 60_000)              # a sample of the pixels is plenty for a check
     pts = np.column_stack([xs[::step], ys[::step]]).astype(np.float64)
     mm = plane.to_mm(pts)
     e = 0.5

@@ -39,6 +39,9 @@ LENS_ALLOWANCE = 0.003
 DEFAULT_MAX_TILT = 5.0
 # A target fit whose corner residuals exceed this share of a square is refused.
 _POOR_FIT = 0.02
+# Longest side of the reduced copy the checkerboard is looked for on [px]; corners are then
+# refined on the full image.
+_DETECT_PX = 1100.0
 # Standard uncertainty of a point read off an image by a person [px].
 _CLICK_U = 0.5
 # Relative standard uncertainty of a flatbed scanner's stated resolution (common practice).
@@ -195,7 +198,7 @@ def map_from_dpi(dpi: float, *, stated: str) -> PlaneMap:
 def _find_corners(cv2, img8: np.ndarray, cols: int, rows: int) -> np.ndarray | None:
     """Inner corners (N, 2) [px], row by row; detected on a reduced copy, refined at full size."""
     h, w = img8.shape
-    f = min(1.0, 1600.0 / max(h, w))
+    f = min(1.0, _DETECT_PX / max(h, w))
     small = cv2.resize(img8, (int(w * f), int(h * f)), interpolation=cv2.INTER_AREA) if f < 1 else img8
     flags = cv2.CALIB_CB_NORMALIZE_IMAGE | cv2.CALIB_CB_EXHAUSTIVE | cv2.CALIB_CB_ACCURACY
     ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=flags)
@@ -213,17 +216,32 @@ def _find_corners(cv2, img8: np.ndarray, cols: int, rows: int) -> np.ndarray | N
 
 
 def _fit(px: np.ndarray, mm: np.ndarray) -> np.ndarray:
-    """Least-squares homography px -> mm, refined on the mm residuals (Levenberg-Marquardt)."""
+    """Least-squares homography px -> mm: the DLT, then Gauss-Newton steps on the mm residuals
+    (the maximum-likelihood estimate when the corners' errors are alike, [1] sec. 4.2)."""
     import cv2
 
     H, _ = cv2.findHomography(px, mm, 0)
     if H is None:
         raise MeasurementError("the target's corners do not determine a homography")
-    from scipy.optimize import least_squares
+    h = (H / H[2, 2]).ravel()[:8]
+    for _ in range(20):
+        r = (_project(_h(h), px) - mm).ravel()
+        J = _jacobian(h, px)
+        step = np.linalg.lstsq(J, -r, rcond=None)[0]
+        h = h + step
+        if np.max(np.abs(step) / np.maximum(np.abs(h), 1e-12)) < 1e-12:
+            break
+    return _h(h)
 
-    h0 = (H / H[2, 2]).ravel()[:8]
-    sol = least_squares(lambda h: (_project(_h(h), px) - mm).ravel(), h0, method="lm")
-    return _h(sol.x)
+
+def _jacobian(h: np.ndarray, px: np.ndarray) -> np.ndarray:
+    """d(projected mm points)/d(h), by central differences (8 columns)."""
+    J = np.empty((2 * len(px), 8))
+    for k in range(8):
+        d = np.zeros(8)
+        d[k] = 1e-7 * max(1.0, abs(h[k]))
+        J[:, k] = ((_project(_h(h + d), px) - _project(_h(h - d), px)) / (2 * d[k])).ravel()
+    return J
 
 
 def _h(h: np.ndarray) -> np.ndarray:
@@ -244,11 +262,6 @@ def _handedness(H: np.ndarray, at: np.ndarray) -> float:
 
 def _homography_covariance(H, px, mm, res, dof: int) -> np.ndarray:
     """σ² (JᵀJ)⁻¹ of the eight entries, σ² from the residuals ([1], sec. 5.2)."""
-    h = H.ravel()[:8]
-    J = np.empty((2 * len(px), 8))
-    for k in range(8):
-        d = np.zeros(8)
-        d[k] = 1e-7 * max(1.0, abs(h[k]))
-        J[:, k] = ((_project(_h(h + d), px) - _project(_h(h - d), px)) / (2 * d[k])).ravel()
+    J = _jacobian(H.ravel()[:8], px)
     sigma2 = float(np.sum(res**2)) / max(dof, 1)
     return sigma2 * np.linalg.pinv(J.T @ J)
