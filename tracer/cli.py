@@ -221,7 +221,7 @@ def _measure(args: argparse.Namespace) -> int:
     if overlay and pm is not None:
         from .photo.overlay import write_overlay
 
-        write_overlay(overlay, pm, result.properties)
+        write_overlay(overlay, pm, result.properties, result.u)
         outputs.append((overlay, ""))
 
     if args.json == "-":

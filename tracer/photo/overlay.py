@@ -19,8 +19,11 @@ from .pipeline import PhotoMeasurement
 __all__ = ["overlay_image", "write_overlay"]
 
 
-def overlay_image(pm: PhotoMeasurement, props: Properties) -> np.ndarray:
-    """A BGR image of the photo with the trace, references, centroid and principal axes."""
+def overlay_image(pm: PhotoMeasurement, props: Properties, u: dict[str, float] | None = None) -> np.ndarray:
+    """A BGR image of the photo with the trace, references, centroid and principal axes.
+
+    The label gives A, I1 and I2 with their expanded uncertainty U = 2u where `u` is given.
+    """
     import cv2
 
     img = pm.photo.color.copy()
@@ -46,17 +49,25 @@ def overlay_image(pm: PhotoMeasurement, props: Properties) -> np.ndarray:
             _dashed(cv2, img, ends, (40, 40, 230), lw)
     cp = pm.plane.to_px(c)[0]
     cv2.drawMarker(img, (int(round(cp[0])), int(round(cp[1]))), (40, 40, 230), cv2.MARKER_CROSS, 12 * lw, lw)
-    label = f"A = {props.A:.5g} mm2   I1 = {props.I1:.4g} mm4   I2 = {props.I2:.4g} mm4"
+    from ..table import format_measured, format_value
+
+    def show(key: str, unit: str) -> str:
+        v = getattr(props, key)
+        text = format_measured(v, 2 * u[key]) if u and key in u else format_value(v)
+        return f"{key} = {text} {unit}"
+
+    label = "   ".join([show("A", "mm2"), show("I1", "mm4"), show("I2", "mm4")]) + ("   (U = 2u)" if u else "")
     cv2.putText(img, label, (10, 24 * lw), cv2.FONT_HERSHEY_SIMPLEX, 0.6 * lw, (0, 0, 0), 3 * lw, cv2.LINE_AA)
     cv2.putText(img, label, (10, 24 * lw), cv2.FONT_HERSHEY_SIMPLEX, 0.6 * lw, (255, 255, 255), lw, cv2.LINE_AA)
     return img
 
 
-def write_overlay(path: str | Path, pm: PhotoMeasurement, props: Properties) -> None:
+def write_overlay(path: str | Path, pm: PhotoMeasurement, props: Properties,
+                  u: dict[str, float] | None = None) -> None:
     """Write the review picture as PNG, atomically."""
     import cv2
 
-    ok, buf = cv2.imencode(".png", overlay_image(pm, props))
+    ok, buf = cv2.imencode(".png", overlay_image(pm, props, u))
     if not ok:
         raise OSError(f"{path}: the review picture could not be encoded")
     write_atomic_bytes(path, buf.tobytes())
