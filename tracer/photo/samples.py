@@ -10,8 +10,6 @@ from __future__ import annotations
 import tomllib
 from pathlib import Path
 
-import numpy as np
-
 __all__ = ["SAMPLES_DIR", "sample_names", "sample_settings", "write_samples"]
 
 #: Where the sample photos live, inside the installed package.
@@ -75,4 +73,3 @@ def write_samples(folder: Path = SAMPLES_DIR) -> list[Path]:
 if __name__ == "__main__":  # pragma: no cover
     for p in write_samples():
         print(p)
-    print(np.__name__ and "done")

@@ -152,7 +152,7 @@ def map_from_target(gray: np.ndarray, cols: int, rows: int, square: float) -> Pl
     if rms > _POOR_FIT * square:
         raise MeasurementError(f"the target fit is poor: corner residual {rms:.3g} mm RMS against {square:g} mm "
                                "squares; is the target flat and in the plane of the cut face?")
-    cov = _homography_covariance(H, corners, ideal, res, dof=2 * n - 8)
+    cov = _homography_covariance(H, corners, res, dof=2 * n - 8)
     # The printed sheet around the squares is a reference, never the member.
     margin = 1.7 * square
     sign = 1.0 if ideal[-1, 1] >= 0 else -1.0
@@ -260,7 +260,7 @@ def _handedness(H: np.ndarray, at: np.ndarray) -> float:
     return float(np.linalg.det(np.column_stack([q[1] - q[0], q[2] - q[0]])))
 
 
-def _homography_covariance(H, px, mm, res, dof: int) -> np.ndarray:
+def _homography_covariance(H: np.ndarray, px: np.ndarray, res: np.ndarray, dof: int) -> np.ndarray:
     """σ² (JᵀJ)⁻¹ of the eight entries, σ² from the residuals ([1], sec. 5.2)."""
     J = _jacobian(H.ravel()[:8], px)
     sigma2 = float(np.sum(res**2)) / max(dof, 1)

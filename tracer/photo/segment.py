@@ -112,9 +112,7 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
     disk = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * r + 1, 2 * r + 1))
 
     if seed is not None:
-        sx, sy = seed
-        if not (0 <= sx < w and 0 <= sy < h):
-            raise InputError(f"--seed {sx:g},{sy:g} lies outside the {w} x {h} image")
+        sx, sy = seed                                  # inside the image: checked above
         classes = [bool(bright[int(sy), int(sx)])]
     else:
         classes = [True, False]
