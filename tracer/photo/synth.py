@@ -56,9 +56,22 @@ class Scene:
         Put a graduated ruler in view.
     seed : int
         Texture and noise seed.
+    sensor : (width, height) or None
+        A fixed image size [px] with the optical axis through its centre, as a real camera has
+        (needed for lens distortion); the tilted camera then walks round the scene's centre,
+        keeping it in the middle of the frame. None: the camera turns where it stands and the
+        image is cropped to the scene.
+    focal_px : float
+        Focal length [px].
+    distortion : tuple of float
+        Lens distortion (k1, k2, p1, p2[, k3]) in OpenCV's convention about the image centre;
+        only with `sensor`.
+    member_length : float
+        Length [mm] of the member behind its cut face: its side faces are drawn where the
+        camera sees them (an oblique or off-centre view); 0 draws the face alone.
     """
 
-    section: Section
+    section: Section | None
     target: tuple[int, int, float] = (6, 4, 10.0)
     target_at: tuple[float, float] = (0.0, 0.0)
     px_per_mm: float = 4.0
@@ -73,6 +86,10 @@ class Scene:
     ruler: bool = False
     seed: int = 0
     margin: float = 40.0
+    sensor: tuple[int, int] | None = None
+    focal_px: float = 3000.0
+    distortion: tuple[float, ...] = ()
+    member_length: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -82,16 +99,19 @@ class Render:
     Attributes
     ----------
     image : ndarray (H, W, 3) uint8, BGR
-    section : Section
+    section : Section or None
         The true section in the target's mm frame.
     homography : ndarray (3, 3)
-        Maps mm-plane points (x, y up) to image pixels (column, row).
+        Maps mm-plane points (x, y up) to image pixels (column, row), before lens distortion.
+    camera_matrix : ndarray (3, 3)
+        The camera's intrinsic matrix in OpenCV's convention (positive focal lengths).
     """
 
     image: np.ndarray
-    section: Section
+    section: Section | None
     homography: np.ndarray
     scene: Scene = field(repr=False)
+    camera_matrix: np.ndarray | None = None
 
 
 def render(scene: Scene) -> Render:
@@ -100,14 +120,18 @@ def render(scene: Scene) -> Render:
     Every outline (member, holes, target squares, ruler) is mapped to the image by the camera's
     homography, which keeps straight lines straight, and filled by pixel-centre tests on a 4x
     finer grid that is then averaged: the rendered area is exact to well under a pixel's share.
+    Lens distortion, where asked, then moves every pixel as OpenCV's model says.
     """
     import cv2
 
     rng = np.random.default_rng(scene.seed)
     cols, rows, sq = scene.target if scene.target is not None else (0, 0, 0.0)
     tx, ty = scene.target_at if scene.target is not None else (0.0, 0.0)
-    sx0, sy0, sx1, sy1 = scene.section.bounds
     paper = (np.array([tx - 1.6 * sq, ty - 1.6 * sq]), np.array([tx + (cols + 0.6) * sq, ty + (rows + 0.6) * sq]))
+    if scene.section is not None:
+        sx0, sy0, sx1, sy1 = scene.section.bounds
+    else:
+        sx0, sy0, sx1, sy1 = (*paper[0], *paper[1])
     if scene.target is None:
         paper = (np.array([sx0, sy0]), np.array([sx1, sy1]))
     lo = np.minimum(paper[0], (sx0, sy0)) - scene.margin
@@ -116,22 +140,27 @@ def render(scene: Scene) -> Render:
     if scene.ruler:
         lo[1] -= 40.0
         ruler_at = (np.array([lo[0] + 10.0, lo[1] + 12.0]), min(300.0, hi[0] - lo[0] - 20.0))
-    Hc, (W, H) = _camera(scene, lo, hi)                   # mm -> image pixels
+    P, K, (W, H) = _camera(scene, lo, hi)                 # 3-D mm -> image pixels
+    Hc = P[:, [0, 1, 3]] / P[2, 3]                        # the face's plane (z = 0)
     k = _SUPERSAMPLE
 
-    def cover(polys: list[np.ndarray], signs: list[int] | None = None) -> np.ndarray:
+    def cover(polys: list[np.ndarray], signs: list[int] | None = None, *, mapped: bool = False) -> np.ndarray:
         """Share of each pixel inside the union of mapped polygons (holes with sign -1).
 
         OpenCV fills every sub-pixel its boundary touches, whether it paints or erases (a hole);
         drawing each outline shrunk by 0.4 sub-pixel takes that back (measured: within 0.1
-        sub-pixel on squares and circles).
+        sub-pixel on squares and circles). `mapped` polygons are in image pixels already.
         """
         import shapely
 
         acc = np.zeros((H * k, W * k), np.uint8)
         for i, poly in enumerate(polys):
-            q = np.column_stack([poly, np.ones(len(poly))]) @ Hc.T
-            q = (q[:, :2] / q[:, 2:] + 0.5) * k - 0.5
+            if mapped:
+                q = poly
+            else:
+                q = np.column_stack([poly, np.ones(len(poly))]) @ Hc.T
+                q = q[:, :2] / q[:, 2:]
+            q = (q + 0.5) * k - 0.5
             hole = bool(signs) and signs[i] < 0
             g = shapely.Polygon(q).buffer(-0.4, join_style="mitre")
             if g.is_empty:
@@ -143,18 +172,22 @@ def render(scene: Scene) -> Render:
 
     member_light = scene.member == "timber"
     img = (45.0 if member_light else 215.0) + _texture(rng, H, W, scale=6 * scene.px_per_mm, amplitude=10.0)
-    rings = list(scene.section.rings())
-    m = cover([r for r, _ in rings], [-1 if hole else 1 for _, hole in rings])
-    if member_light:
-        yy, xx = np.mgrid[0:H, 0:W].astype(np.float64)
-        pts = np.column_stack([xx.ravel(), yy.ravel(), np.ones(xx.size)]) @ np.linalg.inv(Hc).T
-        mx, my = (pts[:, 0] / pts[:, 2]).reshape(H, W), (pts[:, 1] / pts[:, 2]).reshape(H, W)
-        pith = ((sx0 + sx1) / 2, sy0 - 0.3 * (sy1 - sy0))
-        grain = 0.5 + 0.5 * np.sin(np.hypot(mx - pith[0], my - pith[1]) / 1.7)
-        face = 185.0 + 18.0 * grain + _texture(rng, H, W, scale=1.5 * scene.px_per_mm, amplitude=6.0)
-    else:
-        face = 120.0 + _texture(rng, H, W, scale=0.8 * scene.px_per_mm, amplitude=8.0)
-    img = img * (1 - m) + face * m
+    if scene.section is not None:
+        rings = list(scene.section.rings())
+        if scene.member_length > 0:                       # the side faces behind the cut end
+            side = cover(_side_faces(P, [r for r, _ in rings], scene.member_length), mapped=True)
+            img = img * (1 - side) + (150.0 if member_light else 95.0) * side
+        m = cover([r for r, _ in rings], [-1 if hole else 1 for _, hole in rings])
+        if member_light:
+            yy, xx = np.mgrid[0:H, 0:W].astype(np.float64)
+            pts = np.column_stack([xx.ravel(), yy.ravel(), np.ones(xx.size)]) @ np.linalg.inv(Hc).T
+            mx, my = (pts[:, 0] / pts[:, 2]).reshape(H, W), (pts[:, 1] / pts[:, 2]).reshape(H, W)
+            pith = ((sx0 + sx1) / 2, sy0 - 0.3 * (sy1 - sy0))
+            grain = 0.5 + 0.5 * np.sin(np.hypot(mx - pith[0], my - pith[1]) / 1.7)
+            face = 185.0 + 18.0 * grain + _texture(rng, H, W, scale=1.5 * scene.px_per_mm, amplitude=6.0)
+        else:
+            face = 120.0 + _texture(rng, H, W, scale=0.8 * scene.px_per_mm, amplitude=8.0)
+        img = img * (1 - m) + face * m
     paint = []
     if scene.target is not None:
         paint.append(([_rect(*paper)], 235.0))
@@ -173,6 +206,8 @@ def render(scene: Scene) -> Render:
     for polys, value in paint:
         f = cover(polys)
         img = img * (1 - f) + value * f
+    if scene.distortion:
+        img = _distort(img.astype(np.float32), K, np.array(scene.distortion, dtype=np.float64))
     if scene.blur > 0:
         img = cv2.GaussianBlur(img.astype(np.float32), (0, 0), scene.blur)
     gx = np.linspace(-0.5, 0.5, W, dtype=np.float32)[None, :]
@@ -183,32 +218,78 @@ def render(scene: Scene) -> Render:
         ok, buf = cv2.imencode(".jpg", bgr, [cv2.IMWRITE_JPEG_QUALITY, int(scene.jpeg)])
         bgr = cv2.imdecode(buf, cv2.IMREAD_COLOR)
     # Truth in the target's frame: the target's first inner corner at the origin.
-    truth = scene.section.translated(-tx, -ty)
+    truth = scene.section.translated(-tx, -ty) if scene.section is not None else None
     T = np.array([[1.0, 0.0, tx], [0.0, 1.0, ty], [0.0, 0.0, 1.0]])
-    return Render(image=bgr, section=truth, homography=Hc @ T, scene=scene)
+    return Render(image=bgr, section=truth, homography=Hc @ T, scene=scene, camera_matrix=K)
 
 
 # ---------------------------------------------------------------------------------------------
-def _camera(scene: Scene, lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, tuple[int, int]]:
-    """A pinhole camera square to the face, then tilted: the homography mm -> image pixels."""
+def _camera(scene: Scene, lo: np.ndarray, hi: np.ndarray) -> tuple[np.ndarray, np.ndarray, tuple[int, int]]:
+    """A pinhole camera square to the face, then tilted.
+
+    Returns the 3 x 4 projection of mm points (x, y in the face, z behind it, away from the
+    camera) to image pixels, the intrinsic matrix in OpenCV's convention, and the image size.
+    """
     c = 0.5 * (lo + hi)
-    f = 3000.0                                            # focal length [px]
+    f = float(scene.focal_px)
     dist = f / scene.px_per_mm                            # camera distance [mm] giving px_per_mm
     t, a, turn = (math.radians(v) for v in (scene.tilt, scene.tilt_axis, scene.turn))
     axis = np.array([math.cos(a), math.sin(a), 0.0])
     R = _rotation(axis, t) @ _rotation(np.array([0.0, 0.0, 1.0]), turn)
-    # Plane point X = (x, y, 0) in a frame centred on c; camera looks down -z from height dist.
-    K = np.array([[f, 0.0, 0.0], [0.0, -f, 0.0], [0.0, 0.0, 1.0]])
     Rt = R.T
-    M = K @ np.column_stack([Rt[:, 0], Rt[:, 1], Rt @ np.array([0.0, 0.0, -dist]) * -1])
-    M = M @ np.array([[1.0, 0.0, -c[0]], [0.0, 1.0, -c[1]], [0.0, 0.0, 1.0]])
-    corners = np.array([[lo[0], lo[1]], [hi[0], lo[1]], [hi[0], hi[1]], [lo[0], hi[1]]])
-    q = np.column_stack([corners, np.ones(4)]) @ M.T
-    q = q[:, :2] / q[:, 2:]
-    shift = np.array([[1.0, 0.0, -q[:, 0].min()], [0.0, 1.0, -q[:, 1].min()], [0.0, 0.0, 1.0]])
-    size = (int(math.ceil(np.ptp(q[:, 0]))) + 1, int(math.ceil(np.ptp(q[:, 1]))) + 1)
-    Hc = shift @ M
-    return Hc / Hc[2, 2], size
+    Kflip = np.array([[f, 0.0, 0.0], [0.0, -f, 0.0], [0.0, 0.0, 1.0]])
+    c3 = np.array([c[0], c[1], 0.0])
+    if scene.sensor is None:
+        # The camera turns where it stands, over c (the image is cropped to the scene after).
+        centre = c3 - np.array([0.0, 0.0, dist])
+    else:
+        # The camera walks round c and keeps it at the centre of the frame, as a person does.
+        centre = c3 + R @ np.array([0.0, 0.0, -dist])
+    P = Kflip @ np.column_stack([Rt, -Rt @ centre])
+    if scene.sensor is not None:
+        W, H = (int(v) for v in scene.sensor)
+        shift = np.array([[1.0, 0.0, (W - 1) / 2], [0.0, 1.0, (H - 1) / 2], [0.0, 0.0, 1.0]])
+        size = (W, H)
+    else:
+        if scene.distortion:
+            raise ValueError("lens distortion needs a fixed sensor size (Scene.sensor)")
+        corners = np.array([[lo[0], lo[1], 0, 1], [hi[0], lo[1], 0, 1], [hi[0], hi[1], 0, 1], [lo[0], hi[1], 0, 1]])
+        q = corners @ P.T
+        q = q[:, :2] / q[:, 2:]
+        shift = np.array([[1.0, 0.0, -q[:, 0].min()], [0.0, 1.0, -q[:, 1].min()], [0.0, 0.0, 1.0]])
+        size = (int(math.ceil(np.ptp(q[:, 0]))) + 1, int(math.ceil(np.ptp(q[:, 1]))) + 1)
+    K = np.array([[f, 0.0, shift[0, 2]], [0.0, f, shift[1, 2]], [0.0, 0.0, 1.0]])
+    return shift @ P, K, size
+
+
+def _side_faces(P: np.ndarray, rings: list[np.ndarray], length: float) -> list[np.ndarray]:
+    """Image quadrilaterals of the member's side faces from the cut end back to `length`."""
+    out = []
+    for ring in rings:
+        a = np.column_stack([ring, np.zeros(len(ring)), np.ones(len(ring))])
+        b = a.copy()
+        b[:, 2] = length
+        qa, qb = a @ P.T, b @ P.T
+        qa, qb = qa[:, :2] / qa[:, 2:], qb[:, :2] / qb[:, 2:]
+        na, nb = np.roll(qa, -1, axis=0), np.roll(qb, -1, axis=0)
+        quads = np.stack([qa, na, nb, qb], axis=1)               # (N, 4, 2)
+        area = 0.5 * np.abs(np.sum(quads[..., 0] * np.roll(quads[..., 1], -1, 1)
+                                   - np.roll(quads[..., 0], -1, 1) * quads[..., 1], axis=1))
+        out += [q for q, s in zip(quads, area) if s > 1e-6]
+    return out
+
+
+def _distort(img: np.ndarray, K: np.ndarray, dist: np.ndarray) -> np.ndarray:
+    """The image a lens with `dist` would form: each output pixel looks up its ideal position."""
+    import cv2
+
+    from .lens import undistort_points
+
+    H, W = img.shape
+    yy, xx = np.mgrid[0:H, 0:W].astype(np.float64)
+    m = undistort_points(np.column_stack([xx.ravel(), yy.ravel()]), K, dist).reshape(H, W, 2)
+    return cv2.remap(img, m[..., 0].astype(np.float32), m[..., 1].astype(np.float32), cv2.INTER_CUBIC,
+                     borderMode=cv2.BORDER_REFLECT)
 
 
 def _rotation(axis: np.ndarray, angle: float) -> np.ndarray:
