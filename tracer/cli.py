@@ -133,6 +133,7 @@ def _parser() -> argparse.ArgumentParser:
                        help="assumed bound of the camera's tilt to the face without a target (default 5)")
     photo.add_argument("--texture", metavar="LENGTH",
                        help="cracks and specks narrower than this are texture (default 2mm)")
+    photo.add_argument("--lens", metavar="FILE", help="the camera's lens profile (tracer calibrate): distortion removed")
     photo.add_argument("--overlay", metavar="PATH.png", help="write the review picture of the trace")
     m.add_argument("--debug", action="store_true", help="show the traceback of an error")
     m.set_defaults(command="measure", run=_measure)
@@ -165,6 +166,24 @@ def _parser() -> argparse.ArgumentParser:
     t.add_argument("--paper", default="a4", choices=("a4", "letter"), help="paper, landscape (default a4)")
     t.add_argument("--debug", action="store_true", help="show the traceback of an error")
     t.set_defaults(command="target", run=_target)
+
+    c = sub.add_parser(
+        "calibrate",
+        help="build a lens profile from photos of a checkerboard",
+        description="Find the checkerboard in each photo and fit the camera's focal length, centre and lens "
+                    "distortion; write them as a lens profile for tracer measure --lens. Take 6 to 15 photos "
+                    "with the same camera and zoom, the board flat and tilted 20 to 40 degrees a different way "
+                    "in each, reaching into the corners of the frame.",
+        epilog="example:\n  tracer calibrate cal/*.jpg --board 9x6:20mm --out calib/phone.json\n"
+               "  tracer measure beam.jpg --target 6x4:10mm --lens calib/phone.json",
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    c.add_argument("photos", nargs="+", metavar="PHOTO", help="photos of the board")
+    c.add_argument("--board", required=True, metavar="CxR:SIZE",
+                   help="the board's inner corners across x down and square size, e.g. 9x6:20mm")
+    c.add_argument("--out", required=True, metavar="FILE.json", help="where to write the lens profile")
+    c.add_argument("--debug", action="store_true", help="show the traceback of an error")
+    c.set_defaults(command="calibrate", run=_calibrate)
     return parser
 
 
@@ -177,7 +196,7 @@ def _measure(args: argparse.Namespace) -> int:
 
     path = Path(args.input)
     photo_opts = {k: getattr(args, k)
-                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "overlay")
+                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "lens", "overlay")
                   if getattr(args, k) is not None}
     pm = None
     if path.suffix.lower() == ".toml":
@@ -189,7 +208,8 @@ def _measure(args: argparse.Namespace) -> int:
 
         if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
             raise InputError(f"{path}: no such file")
-        kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture") if k in photo_opts}
+        kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture", "lens")
+              if k in photo_opts}
         if "max_tilt" in photo_opts:
             kw["max_tilt"] = photo_opts["max_tilt"]
         pm = measure_photo(path, name=getattr(args, "name", None), **kw)
@@ -254,6 +274,31 @@ def _target(args: argparse.Namespace) -> int:
     write_target(args.out, cols, rows, square, paper=args.paper)
     print(f"  wrote {args.out}: {cols} x {rows} inner corners of {square:g} mm; print at 100 % and check that the "
           f"bar measures 100 mm; measure with --target {args.board}")
+    return 0
+
+
+def _calibrate(args: argparse.Namespace) -> int:
+    from .errors import InputError
+    from .files import write_atomic
+    from .photo.lens import calibrate, profile_json
+    from .photo.scale import parse_target
+
+    cols, rows, square = parse_target(args.board)
+    if not args.out.lower().endswith(".json"):
+        raise InputError(f"--out {args.out}: a lens profile is a .json file")
+    if not Path(args.out).parent.is_dir():
+        raise InputError(f"{args.out}: its folder does not exist; create it or choose another path")
+    profile, views = calibrate(args.photos, cols, rows, square)
+    write_atomic(args.out, profile_json(profile))
+    K = profile.camera_matrix
+    print(f"  lens profile from {sum(v.found for v in views)} of {len(views)} photos, "
+          f"{profile.image_size[0]} x {profile.image_size[1]} px")
+    for v in views:
+        print(f"    {Path(v.path).name}: " + (f"reprojection {v.rms_px:.2f} px RMS" if v.found else "board not found, skipped"))
+    print(f"  RMS reprojection error {profile.rms_px:.3f} px; focal length {K[0, 0]:.1f} x {K[1, 1]:.1f} px, "
+          f"centre ({K[0, 2]:.1f}, {K[1, 2]:.1f}) px; distortion moves the frame's edge by up to "
+          f"{profile.max_shift_px():.1f} px")
+    print(f"\n  wrote {args.out}; measure with --lens {args.out}")
     return 0
 
 

@@ -19,10 +19,12 @@ from ..measurement import Measurement
 from ..uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError, TiltAllowance
 from ..units import parse_length
 from .contour import Trace, trace_boundary
+from .lens import LensProfile, read_profile
 from .load import Photo, load_photo
 from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_target,
                     parse_target, parse_two_points)
 from .segment import Segmentation, segment_member
+from .view import camera_view, image_side, side_faces
 
 __all__ = ["PhotoMeasurement", "measure_photo", "PHOTO_SUFFIXES", "DEFAULT_TEXTURE_MM"]
 
@@ -49,7 +51,7 @@ class PhotoMeasurement:
 def measure_photo(path: str | Path, *, target: str | None = None, scale: str | None = None,
                   dpi: float | None = None, known: str | None = None, seed: str | None = None,
                   max_tilt: float = DEFAULT_MAX_TILT, texture: str | None = None,
-                  name: str | None = None) -> PhotoMeasurement:
+                  name: str | None = None, lens: "str | Path | LensProfile | None" = None) -> PhotoMeasurement:
     """Measure the member in the photo at `path`.
 
     Parameters
@@ -73,6 +75,9 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         Texture size with unit (default 2mm): narrower cracks and specks are ignored.
     name : str, optional
         The member's name (default: the file's stem).
+    lens : path or LensProfile, optional
+        The camera's lens profile (``tracer calibrate``): points are undistorted before they are
+        mapped, and its residual replaces the allowance for an uncorrected lens.
 
     Raises
     ------
@@ -86,13 +91,18 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     if len(given) > 1:
         raise InputError(f"give one scale reference; this call has {' and '.join(given)}")
     warnings: list[str] = []
+    profile = None
+    if lens is not None:
+        if dpi is not None:
+            raise InputError("--lens is for camera photos; a flatbed scan (--dpi) has no lens profile")
+        profile = (lens if isinstance(lens, LensProfile) else read_profile(lens)).for_image(*photo.shape[::-1])
     if target is not None:
         cols, rows, square = parse_target(target)
-        plane = map_from_target(photo.gray, cols, rows, square)
+        plane = map_from_target(photo.gray, cols, rows, square, lens=profile)
     elif scale is not None:
         pts, length = parse_two_points(scale)
-        plane = map_from_points(pts, length, max_tilt=max_tilt)
-    elif dpi is not None or (photo.dpi is not None and known is None):
+        plane = map_from_points(pts, length, max_tilt=max_tilt, lens=profile)
+    elif profile is None and (dpi is not None or (photo.dpi is not None and known is None)):
         plane = map_from_dpi(float(dpi if dpi is not None else photo.dpi),
                              stated="--dpi" if dpi is not None else "the file's metadata")
     elif known is not None:
@@ -102,7 +112,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
                          "or --known depth=LENGTH")
     known_dim = _parse_known(known) if known is not None else None
     if plane is None:
-        plane = _pixels_plane()
+        plane = _pixels_plane(profile)
     warnings += plane.warnings
     seed_xy = None
     if seed is not None:
@@ -126,7 +136,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         x0, y0, x1, y1 = trace.section.bounds
         measured = (y1 - y0) if which == "depth" else (x1 - x0)
         if plane.record["method"] == "pixels":
-            plane = _known_plane(which, length, measured, max_tilt)
+            plane = _known_plane(which, length, measured, max_tilt, profile)
             warnings += plane.warnings
             trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
         else:
@@ -144,9 +154,22 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         allowance, note = _perspective_allowance(plane, trace, photo, max_tilt)
         comps.append(ScaleError(allowance / np.sqrt(3.0), distribution="rectangular", label="perspective"))
         warnings.append(note)
-    comps.append(ScaleError(LENS_ALLOWANCE / np.sqrt(3.0), distribution="rectangular", label="no lens profile"))
-    warnings.append(f"no lens profile: a {100 * LENS_ALLOWANCE:.1f} % allowance is added to the scale uncertainty")
+    if plane.record["method"] == "dpi":
+        pass                                            # a flatbed scan: no camera lens
+    elif profile is None:
+        comps.append(ScaleError(LENS_ALLOWANCE / np.sqrt(3.0), distribution="rectangular", label="no lens profile"))
+        warnings.append(f"no lens profile: a {100 * LENS_ALLOWANCE:.1f} % allowance is added to the scale uncertainty")
+    else:
+        extent = float(np.ptp(trace.rings_px[0], axis=0).max())
+        comps.append(ScaleError(np.sqrt(2.0) * profile.rms_px / extent, label="lens profile residual"))
+        plane.record["lens"] = {"profile": profile.name, "rms_px": profile.rms_px,
+                                "max_correction_px": profile.max_shift_px()}
     warnings += _cross_check(trace)
+    if plane.record["method"] != "dpi":
+        seen = _side_faces(plane, trace, photo, profile)
+        if seen is not None:
+            plane.record["side_faces"] = seen
+            warnings.append(_side_face_warning(seen))
     p = Path(path)
     source = {"kind": "photo", "path": str(p), "sha256": photo.sha256, "image_px": list(photo.shape[::-1]),
               "scale": plane.record, "edge": {k: float(v) for k, v in edge.items()},
@@ -163,12 +186,41 @@ def _parse_known(text: str) -> tuple[str, float]:
     return which, parse_length(value, field="--known")
 
 
-def _pixels_plane() -> PlaneMap:
-    """Pixels as they are, y turned up: the frame of a trace before its scale is known."""
-    return PlaneMap(H=np.diag([1.0, -1.0, 1.0]), components=(), record={"method": "pixels"})
+def _pixels_plane(lens: LensProfile | None = None) -> PlaneMap:
+    """Pixels as they are (undistorted, with a lens profile), y turned up: the frame of a trace
+    before its scale is known."""
+    return PlaneMap(H=np.diag([1.0, -1.0, 1.0]), components=(), record={"method": "pixels"}, lens=lens)
 
 
-def _known_plane(which: str, length: float, extent_px: float, max_tilt: float) -> PlaneMap:
+def _side_faces(plane: PlaneMap, trace: Trace, photo: Photo, profile: LensProfile | None) -> dict | None:
+    """The member's side faces the camera saw (see :mod:`tracer.photo.view`), or None."""
+    # Without a target's homography the map is a similarity: its decomposition is a camera
+    # square to the face over the image centre, at the distance the scale and focal length give.
+    view = camera_view(plane.H, photo.shape[::-1], None if profile is None else profile.camera_matrix)
+    seen = side_faces(trace.section, view)
+    if seen is not None and "direction" in seen:
+        from ..properties import section_properties
+
+        p = section_properties(trace.section)
+        c = np.array([[p.cx, p.cy], [p.cx, p.cy]]) + [[0.0, 0.0], seen["direction"]]
+        seen["side"] = image_side(np.diff(plane.to_px(c), axis=0)[0])
+    if seen is not None:
+        seen.update({"camera_tilt_deg": view.tilt_deg, "camera_height_mm": view.height,
+                     "focal_from": view.focal_from})
+    return seen
+
+
+def _side_face_warning(seen: dict) -> str:
+    where = f"off to the member's {seen['side']}" if "side" in seen else "off square to the member"
+    holes = " (and into its openings)" if seen.get("holes_share", 0) > 0 else ""
+    assumed = ", focal length assumed" if seen.get("focal_from") == "assumed" else ""
+    return (f"the camera stood {where}{holes}, seeing its edges at up to about {seen['max_angle_deg']:.0f} deg from "
+            f"square{assumed}: side faces may show beside the cut face and be traced as section; check the review "
+            "picture, or photograph square to the face with the member centred in view")
+
+
+def _known_plane(which: str, length: float, extent_px: float, max_tilt: float,
+                 lens: LensProfile | None = None) -> PlaneMap:
     """The scale from one caliper reading of the member's own depth or width.
 
     The reading is taken as read to 0.1 mm (u = 0.1/√12 mm); each end of the traced extent is
@@ -184,7 +236,7 @@ def _known_plane(which: str, length: float, extent_px: float, max_tilt: float) -
     warn = (f"scale from the member's own {which} ({length:g} mm, taken as read to 0.1 mm); no perspective "
             f"correction: an unknown tilt of up to {max_tilt:g} deg is allowed for",)
     return PlaneMap(H=H, components=(ScaleError(u_rel, label=f"known {which}"), TiltAllowance(max_tilt)),
-                    record=record, warnings=warn)
+                    record=record, warnings=warn, lens=lens)
 
 
 def _perspective_allowance(plane: PlaneMap, trace: Trace, photo: Photo, max_tilt: float) -> tuple[float, str]:

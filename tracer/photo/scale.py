@@ -10,6 +10,9 @@ uncertainty adds, and a record for the result's ``source.scale``.
   unknown tilt (a one-sided cosine error) and for where the points were clicked;
 - a scanner's resolution (``--dpi``).
 
+With a lens profile (:mod:`tracer.photo.lens`) the map first undistorts the points it is given,
+so H acts on ideal (distortion-free) pixel positions; points are never moved otherwise.
+
 References
 ----------
 .. [1] R. Hartley and A. Zisserman, *Multiple View Geometry in Computer Vision*, 2nd ed.
@@ -31,7 +34,7 @@ from ..uncertainty import HomographyError, ScaleError, TiltAllowance
 from ..units import parse_length
 
 __all__ = ["PlaneMap", "parse_target", "parse_two_points", "map_from_target", "map_from_points",
-           "map_from_dpi", "LENS_ALLOWANCE", "DEFAULT_MAX_TILT"]
+           "map_from_dpi", "find_corners", "LENS_ALLOWANCE", "DEFAULT_MAX_TILT"]
 
 #: Rectangular allowance on the scale where no lens profile corrects distortion (relative).
 LENS_ALLOWANCE = 0.003
@@ -65,6 +68,8 @@ class PlaneMap:
     marks : ndarray
         Points to draw on the review picture (target corners, clicked points) [px].
     warnings : tuple of str
+    lens : LensProfile or None
+        Undistorts pixel points before H; None: pixels are taken as a distortion-free lens's.
     """
 
     H: np.ndarray
@@ -73,17 +78,21 @@ class PlaneMap:
     keep_out: list = field(default_factory=list)
     marks: np.ndarray = field(default_factory=lambda: np.zeros((0, 2)))
     warnings: tuple[str, ...] = ()
+    lens: Any = None
 
     def to_mm(self, px: np.ndarray) -> np.ndarray:
-        """Map (N, 2) pixel points to mm."""
+        """Map (N, 2) pixel points, as seen in the photo, to mm."""
+        if self.lens is not None:
+            px = self.lens.undistort(px)
         q = np.column_stack([px, np.ones(len(px))]) @ self.H.T
         return q[:, :2] / q[:, 2:]
 
     def to_px(self, mm: np.ndarray) -> np.ndarray:
-        """Map (N, 2) mm points back to pixels."""
+        """Map (N, 2) mm points back to pixels, as seen in the photo."""
         Hi = np.linalg.inv(self.H)
         q = np.column_stack([mm, np.ones(len(mm))]) @ Hi.T
-        return q[:, :2] / q[:, 2:]
+        px = q[:, :2] / q[:, 2:]
+        return self.lens.distort(px) if self.lens is not None else px
 
     def mm_per_px(self, at_px: np.ndarray) -> float:
         """Local linear scale at a pixel position [mm per px] (square root of the Jacobian)."""
@@ -123,22 +132,23 @@ def parse_two_points(text: str) -> tuple[np.ndarray, float]:
     return pts, parse_length(m.group(2), field="--scale length")
 
 
-def map_from_target(gray: np.ndarray, cols: int, rows: int, square: float) -> PlaneMap:
+def map_from_target(gray: np.ndarray, cols: int, rows: int, square: float, *, lens: Any = None) -> PlaneMap:
     """Find a checkerboard of `cols` x `rows` inner corners and fit the plane's homography.
+
+    With a `lens` profile the corners are undistorted before the fit.
 
     Raises
     ------
     MeasurementError
         No such checkerboard in view, or a fit too poor to trust (its residual is given).
     """
-    import cv2
-
     img8 = np.clip(gray * 255.0 + 0.5, 0, 255).astype(np.uint8)
-    corners = _find_corners(cv2, img8, cols, rows)
-    if corners is None:
+    seen = find_corners(img8, cols, rows)
+    if seen is None:
         raise MeasurementError(f"no {cols}x{rows} checkerboard target found; --target counts the inner corners "
                                "(where four squares meet), across then down; check the count and that the "
                                "whole target is in view")
+    corners = lens.undistort(seen) if lens is not None else seen
     j, i = np.divmod(np.arange(cols * rows), cols)
     ideal = np.column_stack([i * square, j * square]).astype(np.float64)
     H = _fit(corners, ideal)
@@ -162,19 +172,23 @@ def map_from_target(gray: np.ndarray, cols: int, rows: int, square: float) -> Pl
     Hi = np.linalg.inv(H)
     q = np.column_stack([box, np.ones(4)]) @ Hi.T
     keep_out = [q[:, :2] / q[:, 2:]]
+    if lens is not None:
+        keep_out = [lens.distort(keep_out[0])]
     record = {"method": "target", "inner_corners": [cols, rows], "square_mm": square,
               "corner_residual_mm_rms": rms, "corners_found": n}
     return PlaneMap(H=H, components=(HomographyError(H, cov, label="target fit"),), record=record,
-                    keep_out=keep_out, marks=corners)
+                    keep_out=keep_out, marks=seen, lens=lens)
 
 
-def map_from_points(points: np.ndarray, length: float, *, max_tilt: float = DEFAULT_MAX_TILT) -> PlaneMap:
+def map_from_points(points: np.ndarray, length: float, *, max_tilt: float = DEFAULT_MAX_TILT,
+                    lens: Any = None) -> PlaneMap:
     """A similarity from two image points `length` [mm] apart; no perspective correction.
 
     The uncertainty carries the click precision (0.5 px per coordinate), and a one-sided
     allowance for an unknown tilt of up to `max_tilt` degrees.
     """
-    d = float(np.hypot(*(points[1] - points[0])))
+    ideal = lens.undistort(points) if lens is not None else points
+    d = float(np.hypot(*(ideal[1] - ideal[0])))
     s = length / d
     H = np.array([[s, 0.0, 0.0], [0.0, -s, 0.0], [0.0, 0.0, 1.0]])   # y up: the one flip
     u_rel = math.sqrt(2.0) * _CLICK_U / d
@@ -183,7 +197,7 @@ def map_from_points(points: np.ndarray, length: float, *, max_tilt: float = DEFA
               "mm_per_px": s, "assumed_max_tilt_deg": max_tilt}
     warn = (f"no perspective correction: an unknown tilt of up to {max_tilt:g} deg is allowed for "
             "(--max-tilt changes it); a target removes it",)
-    return PlaneMap(H=H, components=comps, record=record, marks=points, warnings=warn)
+    return PlaneMap(H=H, components=comps, record=record, marks=points, warnings=warn, lens=lens)
 
 
 def map_from_dpi(dpi: float, *, stated: str) -> PlaneMap:
@@ -195,24 +209,28 @@ def map_from_dpi(dpi: float, *, stated: str) -> PlaneMap:
 
 
 # ---------------------------------------------------------------------------------------------
-def _find_corners(cv2, img8: np.ndarray, cols: int, rows: int) -> np.ndarray | None:
-    """Inner corners (N, 2) [px], row by row; detected on a reduced copy, refined at full size."""
+def find_corners(img8: np.ndarray, cols: int, rows: int) -> np.ndarray | None:
+    """Inner corners (N, 2) [px] of a `cols` x `rows` checkerboard in an 8-bit grey image, row by
+    row, or None; detected on a reduced copy, refined at full size."""
+    import cv2
+
     h, w = img8.shape
     f = min(1.0, _DETECT_PX / max(h, w))
     small = cv2.resize(img8, (int(w * f), int(h * f)), interpolation=cv2.INTER_AREA) if f < 1 else img8
-    flags = cv2.CALIB_CB_NORMALIZE_IMAGE | cv2.CALIB_CB_EXHAUSTIVE | cv2.CALIB_CB_ACCURACY
-    ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=flags)
+    # The quick search first, the exhaustive one only where it fails; the corners' accuracy comes
+    # from the refinement at full size, so the detector's own accuracy pass is not asked for.
+    ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=cv2.CALIB_CB_NORMALIZE_IMAGE)
+    if not ok:
+        flags = cv2.CALIB_CB_NORMALIZE_IMAGE | cv2.CALIB_CB_EXHAUSTIVE | cv2.CALIB_CB_ACCURACY
+        ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=flags)
     if not ok:
         return None
-    c = c.reshape(-1, 2).astype(np.float64)
-    if f < 1:
-        c = (c + 0.5) / f - 0.5
-        step = np.median(np.hypot(*np.diff(c[:cols], axis=0).T))
-        win = max(3, int(0.2 * step))
-        crit = (cv2.TERM_CRITERIA_EPS + cv2.TERM_CRITERIA_MAX_ITER, 50, 1e-3)
-        c = cv2.cornerSubPix(img8, c.astype(np.float32).reshape(-1, 1, 2), (win, win), (-1, -1), crit)
-        c = c.reshape(-1, 2).astype(np.float64)
-    return c
+    c = (c.reshape(-1, 2).astype(np.float64) + 0.5) / f - 0.5
+    step = np.median(np.hypot(*np.diff(c[:cols], axis=0).T))
+    win = max(3, int(0.2 * step))
+    crit = (cv2.TERM_CRITERIA_EPS + cv2.TERM_CRITERIA_MAX_ITER, 50, 1e-3)
+    c = cv2.cornerSubPix(img8, c.astype(np.float32).reshape(-1, 1, 2), (win, win), (-1, -1), crit)
+    return c.reshape(-1, 2).astype(np.float64)
 
 
 def _fit(px: np.ndarray, mm: np.ndarray) -> np.ndarray:
