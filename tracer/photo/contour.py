@@ -76,13 +76,11 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
 
     band_r = int(math.ceil(3 * smoothing_px + 3))     # past the mask's own smoothing
     # Work in the member's bounding box, with room for the band and the level windows.
-    ys, xs = np.nonzero(seg.mask)
-    pad = 6 * band_r + 4
-    r0, r1 = max(0, ys.min() - pad), min(gray.shape[0], ys.max() + pad + 1)
-    c0, c1 = max(0, xs.min() - pad), min(gray.shape[1], xs.max() + pad + 1)
+    r0, r1, c0, c1 = seg.box(pad=6 * band_r + 4)
     offset = np.array([c0, r0], dtype=float)
-    f = cv2.GaussianBlur((gray[r0:r1, c0:c1] / seg.light[r0:r1, c0:c1]).astype(np.float32), (0, 0), _EDGE_SIGMA)
-    mask = seg.mask[r0:r1, c0:c1].astype(np.uint8)
+    f = cv2.GaussianBlur((gray[r0:r1, c0:c1] / seg.light_in(r0, r1, c0, c1)).astype(np.float32), (0, 0), _EDGE_SIGMA)
+    full_mask = seg.mask_in(r0, r1, c0, c1)
+    mask = full_mask.astype(np.uint8)
     # Distances to the mask's edge, inside and out (one pass each, instead of wide dilations).
     d_in = cv2.distanceTransform(mask, cv2.DIST_L2, 5)
     d_out = cv2.distanceTransform(1 - mask, cv2.DIST_L2, 5)
@@ -160,7 +158,7 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
             "mm_per_px": s, "offset_mm": offset_px * s, "scatter_mm": scatter_px * s,
             "correlation_mm": math.hypot(blur, _EDGE_SIGMA) * s}
     return Trace(section=section, rings_px=[outer_ring] + holes, edge=edge,
-                 pixel_check=_pixel_moments(seg.mask, plane))
+                 pixel_check=_pixel_moments(full_mask, plane, offset))
 
 
 def _sample(img: np.ndarray, pts: np.ndarray) -> np.ndarray:
@@ -183,11 +181,12 @@ def _noise(f: np.ndarray, inner: np.ndarray, outer: np.ndarray) -> float:
     return float(1.4826 * np.median(np.abs(vals - np.median(vals))))
 
 
-def _pixel_moments(mask: np.ndarray, plane: PlaneMap) -> dict:
-    """A and centroidal second moments summed over pixels, each a small area at its place."""
+def _pixel_moments(mask: np.ndarray, plane: PlaneMap, offset: np.ndarray) -> dict:
+    """A and centroidal second moments summed over pixels, each a small area at its place
+    (`mask` covers the photo from column, row `offset`)."""
     ys, xs = np.nonzero(mask)
-    step = max(1, len(xs) // 60_000)              # a sample of the pixels is plenty for a check
-    pts = np.column_stack([xs[::step], ys[::step]]).astype(np.float64)
+    step = max(1, len(xs) // 30_000)              # a sample of the pixels is plenty for a check
+    pts = np.column_stack([xs[::step], ys[::step]]).astype(np.float64) + offset
     mm = plane.to_mm(pts)
     e = 0.5
     dx = plane.to_mm(pts + (e, 0.0)) - mm

@@ -30,18 +30,24 @@ _WORK_PIXELS = 2_000_000
 class Segmentation:
     """The member's mask and the levels that separate it from its surroundings.
 
+    A large photo is segmented on a reduced copy; the mask and the light are kept at that size
+    and brought to full resolution only over the member's box (:meth:`mask_in`,
+    :meth:`light_in`), where the edge is traced.
+
     Attributes
     ----------
-    mask : ndarray (H, W) bool
-        The member's cut face (holes False).
+    mask : ndarray (h, w) bool
+        The member's cut face (holes False), on the working copy.
     smooth : ndarray float32
         The smoothed grey image, with uneven light divided out, that the threshold was applied to
-        (of the reduced copy, for a large photo).
+        (of the working copy).
     threshold : float
         Otsu's level on `smooth`.
     member_is_bright : bool
-    light : ndarray (H, W) float32
-        The uneven light divided out (1 where even).
+    light : ndarray (h, w) float32
+        The uneven light divided out (1 where even), on the working copy.
+    shape : (H, W)
+        The full photo's size.
     """
 
     mask: np.ndarray
@@ -49,6 +55,41 @@ class Segmentation:
     threshold: float
     member_is_bright: bool
     light: np.ndarray
+    shape: tuple[int, int] = (0, 0)
+
+    def box(self, pad: int = 0) -> tuple[int, int, int, int]:
+        """Rows r0:r1 and columns c0:c1 of the full photo that hold the member, `pad` px wider."""
+        H, W = self.shape
+        h, w = self.mask.shape
+        ys, xs = np.nonzero(self.mask)
+        sy, sx = H / h, W / w
+        r0 = int(np.floor(ys.min() * sy)) - int(np.ceil(sy)) - pad
+        r1 = int(np.ceil((ys.max() + 1) * sy)) + int(np.ceil(sy)) + pad
+        c0 = int(np.floor(xs.min() * sx)) - int(np.ceil(sx)) - pad
+        c1 = int(np.ceil((xs.max() + 1) * sx)) + int(np.ceil(sx)) + pad
+        return max(0, r0), min(H, r1), max(0, c0), min(W, c1)
+
+    def mask_in(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        """The mask at full resolution over rows r0:r1, columns c0:c1 (bilinear, as cv2.resize)."""
+        return self._full(self.mask.astype(np.float32), r0, r1, c0, c1) > 0.5
+
+    def light_in(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        """The uneven light at full resolution over rows r0:r1, columns c0:c1."""
+        return self._full(self.light.astype(np.float32), r0, r1, c0, c1)
+
+    def _full(self, small: np.ndarray, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        import cv2
+
+        H, W = self.shape
+        h, w = small.shape
+        if (h, w) == (H, W):
+            return small[r0:r1, c0:c1]
+        # cv2.resize's pixel-centre mapping, evaluated on the box alone.
+        mx = ((np.arange(c0, c1, dtype=np.float32) + 0.5) * (w / W) - 0.5)[None, :]
+        my = ((np.arange(r0, r1, dtype=np.float32) + 0.5) * (h / H) - 0.5)[:, None]
+        mx, my = np.broadcast_to(mx, (r1 - r0, c1 - c0)), np.broadcast_to(my, (r1 - r0, c1 - c0))
+        return cv2.remap(small, np.ascontiguousarray(mx), np.ascontiguousarray(my), cv2.INTER_LINEAR,
+                         borderMode=cv2.BORDER_REPLICATE)
 
 
 def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, float] | None = None,
@@ -91,10 +132,8 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
                              keep_out=[np.asarray(p) * f for p in keep_out],
                              alpha=None if alpha is None else cv2.resize(alpha.astype(np.uint8), small.shape[::-1],
                                                                           interpolation=cv2.INTER_NEAREST).astype(bool))
-        up = cv2.resize(seg.mask.astype(np.float32), (W0, H0), interpolation=cv2.INTER_LINEAR) > 0.5
-        light = cv2.resize(seg.light, (W0, H0), interpolation=cv2.INTER_LINEAR)
-        return Segmentation(mask=up, smooth=seg.smooth, threshold=seg.threshold,
-                            member_is_bright=seg.member_is_bright, light=light)
+        return Segmentation(mask=seg.mask, smooth=seg.smooth, threshold=seg.threshold,
+                            member_is_bright=seg.member_is_bright, light=seg.light, shape=(H0, W0))
     h, w = H0, W0
     sigma = max(1.0, 0.25 * texture_px)
     smooth = cv2.GaussianBlur(gray.astype(np.float32), (0, 0), sigma)
@@ -162,7 +201,8 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
         raise MeasurementError("the member is cut off by the image border; photograph the whole cut face "
                                "with some ground around it")
     mask = _fill_small_holes(region, min_area=(2 * texture_px) ** 2)
-    return Segmentation(mask=mask, smooth=smooth, threshold=float(t), member_is_bright=cls, light=light)
+    return Segmentation(mask=mask, smooth=smooth, threshold=float(t), member_is_bright=cls, light=light,
+                        shape=(H0, W0))
 
 
 def _light(img: np.ndarray, usable: np.ndarray) -> np.ndarray:
