@@ -68,19 +68,26 @@ def extreme_fibres(section: Section, props: Properties) -> dict[str, tuple[float
     return {k: (float(xy[i, 0]), float(xy[i, 1])) for k, i in pick.items()}
 
 
-def section_figure(section: Section, props: Properties, *, units: str = "mm", width: float = 6.6) -> Any:
-    """A matplotlib Figure of the section (see :func:`draw_section`), `width` inches wide.
+def section_figure(section: Section, props: Properties, *, units: str = "mm",
+                   max_size: tuple[float, float] = (6.8, 6.4)) -> Any:
+    """A matplotlib Figure of the section (see :func:`draw_section`), at most `max_size` inches.
 
-    Its height follows the section's proportions (between 0.55 and 1.25 times the width), so
-    a deep or a flat section fills the figure.
+    The figure takes the section's proportions, so that shown at its own size (as the report
+    does) its type keeps its point size: a deep section gets a narrower figure, a flat one a
+    lower figure.
     """
     import matplotlib
     from matplotlib.figure import Figure
 
     x0, y0, x1, y1 = section.bounds
     pad = 0.21 * max(x1 - x0, y1 - y0)
-    ratio = (y1 - y0 + 2 * pad) / (x1 - x0 + 2.6 * pad)
-    size = (width, width * min(1.25, max(0.55, ratio)) + 0.6)
+    ratio = (y1 - y0 + 2 * pad) / (x1 - x0 + 2.6 * pad)       # of the drawing's limits
+    frame_w, frame_h = 0.9, 1.4                                # axis labels, legend [in]
+    w_max, h_max = max_size
+    if ratio > (h_max - frame_h) / (w_max - frame_w):
+        size = (max(5.6, (h_max - frame_h) / ratio + frame_w), h_max)
+    else:
+        size = (w_max, max(3.4, (w_max - frame_w) * ratio + frame_h))
     with matplotlib.rc_context(STYLE):
         fig = Figure(figsize=size, layout="constrained")
         draw_section(fig.add_subplot(), section, props, units=units)
@@ -125,7 +132,7 @@ def draw_section(ax: Any, section: Section, props: Properties, *, units: str = "
             return
         mid = ((p[0] + q[0]) / 2, (p[1] + q[1]) / 2)
         off = {"below": (0, -3), "above": (0, 3), "left": (-3, 0), "right": (3, 0)}[side]
-        ax.annotate(text, mid, xytext=off, textcoords="offset points", fontsize=7, color=_DIM,
+        ax.annotate(text, mid, xytext=off, textcoords="offset points", fontsize=7.5, color=_DIM,
                     ha={"left": "right", "right": "left"}.get(side, "center"),
                     va={"below": "top", "above": "bottom"}.get(side, "center"),
                     rotation=90 if side == "left" else 0, rotation_mode="anchor" if side == "left" else "default",
@@ -153,7 +160,7 @@ def draw_section(ax: Any, section: Section, props: Properties, *, units: str = "
     dim((x0, yt), (cx, yt), None, side="above")
     dim((cx, yt), (x1, yt), None, side="above")
     ax.annotate(f"left fibre {_g(cx - x0)} | right fibre {_g(x1 - cx)} {units}", (cx, yt), xytext=(0, 3),
-                textcoords="offset points", fontsize=7, color=_DIM, ha="center", va="bottom", zorder=4)
+                textcoords="offset points", fontsize=7.5, color=_DIM, ha="center", va="bottom", zorder=4)
     # Principal axes through the centroid, 1 (major, solid) and 2 (minor, dashed), each drawn a
     # little beyond the section's extent along it.
     t = math.radians(props.theta)
@@ -186,7 +193,7 @@ def draw_section(ax: Any, section: Section, props: Properties, *, units: str = "
                Line2D([], [], marker="D", ms=4, color="#555555", ls="none",
                       label="extreme fibres of axes 1 and 2"),
                Line2D([], [], color=_DIM, lw=0.5, ls=(0, (4, 3)), label="centroidal x and y")]
-    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.1), ncol=3, fontsize=6.5,
+    ax.legend(handles=handles, loc="upper center", bbox_to_anchor=(0.5, -0.1), ncol=3, fontsize=7,
               frameon=False, handlelength=2.2)
 
 

@@ -257,7 +257,7 @@ def report_pdf(result: Result, *, units: str = "mm", photo: Any = None, characte
             pages.pairs(c.scale)
         pages.new_page()
         pages.heading("Properties")
-        widths = [0.62, 2.55, 0.85, 0.72, 0.72, 0.55] if not characteristic else [0.6, 2.2, 0.8, 0.7, 0.7, 0.7, 0.55]
+        widths = [0.8, 2.55, 0.9, 0.75, 0.75, 0.6] if not characteristic else [0.8, 2.25, 0.85, 0.7, 0.7, 0.75, 0.55]
         aligns = ["left", "left", "right", "right", "right", "left"] if not characteristic else \
             ["left", "left", "right", "right", "right", "right", "left"]
         pages.table(c.property_columns, c.properties, widths, aligns)
@@ -266,7 +266,7 @@ def report_pdf(result: Result, *, units: str = "mm", photo: Any = None, characte
         pages.heading("Uncertainty budget")
         if c.budget:
             pages.text("Each input's share of u² and its own part of u (k = 1).", size=8)
-            pages.figure(lambda ax: draw_budget(ax, result.uncertainty.budget), height=2.3)
+            pages.figure(lambda ax: draw_budget(ax, result.uncertainty.budget), height=2.4, inset=1.9)
             for title, rows in c.budget.values():
                 pages.text(title, size=8.5, weight="bold", gap=0.06)
                 pages.table(["input", "share of u²", "part of u"], rows, [3.4, 1.1, 1.5], ["left", "right", "right"])
@@ -384,16 +384,17 @@ class _Pages:
                 self.new_page()
                 header()
             if i % 2 == 1:
-                self.fig.patches.append(_band(self.left, self.y + 0.03, sum(widths), row_h))
+                self.fig.add_artist(_band(self.left, self.y + 0.03, sum(widths), row_h))
             line(r)
             self.y -= row_h
         rule(0.5)
         self.y -= 0.08
 
-    def figure(self, draw: Callable[[Any], Any], *, height: float, legend: float = 0.0) -> None:
+    def figure(self, draw: Callable[[Any], Any], *, height: float, legend: float = 0.0, inset: float = 0.45) -> None:
+        """Axes `height` inches tall (with `legend` inches kept below them), `inset` in from the left."""
         self._need(height)
         bottom = self.y - height + legend + 0.35
-        ax = self.fig.add_axes([(self.left + 0.45) / _A4[0], bottom / _A4[1], (self.width - 0.55) / _A4[0],
+        ax = self.fig.add_axes([(self.left + inset) / _A4[0], bottom / _A4[1], (self.width - inset - 0.1) / _A4[0],
                                 (height - legend - 0.4) / _A4[1]])
         draw(ax)
         self.y -= height
@@ -505,8 +506,8 @@ table.head th { text-align: left; font-weight: normal; color: var(--muted); widt
 table.head td { padding: 0.6mm 0; overflow-wrap: anywhere; }
 .caution { border: 1px solid var(--warn); background: #fbf3e4; padding: 2.5mm 3.5mm; margin: 4mm 0; font-size: 9.5pt; }
 figure { margin: 0; break-inside: avoid; page-break-inside: avoid; }
-figure svg, figure img { display: block; width: 100%; height: auto; }
-figure.section svg { max-height: 170mm; }
+figure svg { display: block; max-width: 100%; height: auto; margin: 0 auto; }
+figure img { display: block; width: 100%; height: auto; }
 figure.photo img { max-height: 130mm; object-fit: contain; border: 1px solid var(--rule); }
 figcaption { font-size: 8.5pt; color: var(--muted); margin-top: 1.5mm; }
 table.properties { font-size: 9.5pt; font-variant-numeric: tabular-nums; }
