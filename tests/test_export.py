@@ -6,8 +6,6 @@ from __future__ import annotations
 import csv
 import json
 import re
-import subprocess
-import sys
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
@@ -16,6 +14,8 @@ import shapely
 
 from tracer.properties import PROPERTY_KEYS, section_properties
 from tracer.sheet import read_sheet
+
+from .common import run_tracer, sheet_file
 
 EXAMPLES = Path(__file__).parents[1] / "tracer" / "examples"
 
@@ -45,15 +45,12 @@ REF = shapely.Polygon(OUTER, HOLES)
 assert REF.area == 100 * 60 - 30 * 20 - 15 * 15 / 2
 
 
-def run(*args: str) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "tracer", *args], capture_output=True, text=True)
+run = run_tracer
 
 
 @pytest.fixture
 def sheet(tmp_path) -> Path:
-    p = tmp_path / "plate.toml"
-    p.write_text(SHEET)
-    return p
+    return sheet_file(tmp_path, "plate.toml", SHEET)
 
 
 def export(src: Path, out: Path, *extra: str) -> Path:

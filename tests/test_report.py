@@ -9,7 +9,6 @@ import os
 import re
 import shutil
 import subprocess
-import sys
 from html.parser import HTMLParser
 from pathlib import Path
 
@@ -18,6 +17,8 @@ import pytest
 
 from tracer.properties import PROPERTY_KEYS
 from tracer.units import property_unit
+
+from .common import run_tracer, sheet_file
 
 # An invented test section: a 100 x 200 mm rectangle with a centred 60 x 120 mm rectangular hole.
 # Closed forms (any strength-of-materials text): A = BH - bh, Ix = (BH^3 - bh^3)/12, Iy = (HB^3 - hb^3)/12.
@@ -75,15 +76,12 @@ def _num(text: str) -> float:
     return float(text)                   # engineering notation like 27.84e6 is a Python float literal
 
 
-def run(*args: str) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "tracer", *args], capture_output=True, text=True)
+run = run_tracer
 
 
 @pytest.fixture
 def sheet(tmp_path) -> Path:
-    p = tmp_path / "block.toml"
-    p.write_text(SHEET)
-    return p
+    return sheet_file(tmp_path, "block.toml", SHEET)
 
 
 def _report(sheet: Path, out: Path, *extra: str) -> dict:
