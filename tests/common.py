@@ -7,6 +7,9 @@ published table rather than read from it during this work.
 from __future__ import annotations
 
 import math
+import subprocess
+import sys
+from pathlib import Path
 
 import numpy as np
 
@@ -93,3 +96,15 @@ def printed_tolerance(value: float) -> float:
     text = f"{value}"
     decimals = len(text.split(".")[1]) if "." in text else 0
     return 0.5 * 10.0 ** (-decimals) * (1 + 1e-9)
+
+
+def run_tracer(*args: str) -> subprocess.CompletedProcess:
+    """``python -m tracer ARGS`` as a user runs it, output captured as text."""
+    return subprocess.run([sys.executable, "-m", "tracer", *args], capture_output=True, text=True)
+
+
+def sheet_file(folder: Path, name: str, text: str) -> Path:
+    """Write a sheet's text to ``folder/name`` and return its path."""
+    p = folder / name
+    p.write_text(text)
+    return p

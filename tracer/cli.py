@@ -43,11 +43,23 @@ examples:
   tracer measure joist.toml --budget             which reading dominates the uncertainty
   tracer measure joist.toml --characteristic     add the 5th-percentile values
   tracer measure beam.toml --torsion             add J, shear centre and Cw (finite elements)
+  tracer measure joist.toml --report joist.html  the report for the assessment file (or .pdf)
 
 Values are shown as value ± U with U = 2u (k = 2); the JSON gives u (k = 1).
 
 exit status: 0 done, 1 input readable but not measurable, 2 bad usage or unreadable input.
 Results are for screening only, not a design check.
+"""
+
+
+_EXPORT_EPILOG = """\
+examples:
+  tracer export joist.toml --to joist.svg            true-scale drawing (sizes in mm)
+  tracer export joist.toml --to joist.dxf            closed polylines, layers OUTLINE and HOLES
+  tracer export joist.toml --to joist.csv --units in ring, x, y of every vertex, in inches
+  tracer export joist.toml --to joist.json           the result JSON (as measure --json)
+  tracer export photo.jpg --target 6x4:10mm --to traced.toml
+                                                     the traced outline as a sheet to edit and measure
 """
 
 
@@ -106,6 +118,8 @@ def _parser() -> argparse.ArgumentParser:
                    help="length unit of the table and the JSON (default mm)")
     m.add_argument("--align", choices=("principal",),
                    help="turn the section onto its principal axes before reporting")
+    m.add_argument("--report", metavar="FILE.html|FILE.pdf",
+                   help="write the report for the assessment file: HTML (self-contained) or PDF, by the suffix")
     m.add_argument("--save-sheet", metavar="PATH",
                    help="also write the geometry as an [outline] sheet, to edit by hand and measure again")
     m.add_argument("--budget", action="store_true",
@@ -184,43 +198,77 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--out", required=True, metavar="FILE.json", help="where to write the lens profile")
     c.add_argument("--debug", action="store_true", help="show the traceback of an error")
     c.set_defaults(command="calibrate", run=_calibrate)
+
+    e = sub.add_parser(
+        "export",
+        help="write the section's geometry or result to a file: SVG, DXF, CSV, TOML sheet or JSON",
+        description="Measure INPUT (anything tracer measure takes) and write its geometry, or its result, "
+                    "in the format of the file's suffix.",
+        epilog=_EXPORT_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    e.add_argument("input", metavar="INPUT", help="a section sheet (.toml) or a photo or scan of the cut end")
+    e.add_argument("--to", required=True, metavar="FILE", help="where to write: .svg .dxf .csv .toml or .json")
+    e.add_argument("--units", default="mm", choices=("mm", "cm", "m", "in"),
+                   help="length unit of the DXF, CSV, TOML and JSON (default mm); an SVG is always in mm")
+    e.add_argument("--align", choices=("principal",),
+                   help="turn the section onto its principal axes before writing it")
+    e.add_argument("--draws", type=_positive_int, metavar="N", help="as for tracer measure (JSON only)")
+    e.add_argument("--random-seed", type=int, default=None, metavar="N", help="as for tracer measure (JSON only)")
+    e_photo = e.add_argument_group("photo options")
+    # The same option objects as measure's (argparse shares actions this way for parents=), so
+    # export takes every photo option measure takes; the review picture is measure's alone.
+    for action in photo._group_actions:
+        if action.dest != "overlay":
+            e_photo._add_action(action)
+    e.add_argument("--debug", action="store_true", help="show the traceback of an error")
+    e.set_defaults(command="export", run=_export)
     return parser
 
 
-def _measure(args: argparse.Namespace) -> int:
+def _read_measurement(args: argparse.Namespace):
+    """INPUT and the photo options -> (Measurement, the PhotoMeasurement or None)."""
     from .errors import InputError
-    from .files import write_atomic
-    from .result import measure, result_json
-    from .sheet import read_sheet, sheet_text
-    from .table import format_table
+    from .sheet import read_sheet
 
     path = Path(args.input)
     photo_opts = {k: getattr(args, k)
                   for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "lens", "overlay")
-                  if getattr(args, k) is not None}
-    pm = None
+                  if getattr(args, k, None) is not None}
     if path.suffix.lower() == ".toml":
         if photo_opts:
             raise InputError(f"--{next(iter(photo_opts)).replace('_', '-')} is a photo option; {path} is a sheet")
-        measurement = read_sheet(path)
-    else:
-        from .photo.pipeline import PHOTO_SUFFIXES, measure_photo
+        return read_sheet(path), None
+    from .photo.pipeline import PHOTO_SUFFIXES, measure_photo
 
-        if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
-            raise InputError(f"{path}: no such file")
-        kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture", "lens")
-              if k in photo_opts}
-        if "max_tilt" in photo_opts:
-            kw["max_tilt"] = photo_opts["max_tilt"]
-        pm = measure_photo(path, name=getattr(args, "name", None), **kw)
-        measurement = pm.measurement
+    if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
+        raise InputError(f"{path}: no such file")
+    kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture", "lens")
+          if k in photo_opts}
+    if "max_tilt" in photo_opts:
+        kw["max_tilt"] = photo_opts["max_tilt"]
+    pm = measure_photo(path, name=getattr(args, "name", None), **kw)
+    return pm.measurement, pm
+
+
+def _measure(args: argparse.Namespace) -> int:
+    from .errors import InputError
+    from .files import write_atomic, write_atomic_bytes
+    from .result import measure, result_json
+    from .sheet import sheet_text
+    from .table import format_table
     from .uncertainty import DEFAULT_SEED
 
+    if args.report:
+        from .report import report_format
+
+        report_format(args.report)                     # a bad suffix is refused before any work
+    measurement, pm = _read_measurement(args)
     seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
     result = measure(measurement, align=args.align, draws=args.draws, seed=seed,
                      characteristic=args.characteristic, torsion=args.torsion)
     # Everything is computed before anything is written: an error never leaves a half output.
-    outputs: list[tuple[str, str]] = []
+    outputs: list[tuple[str, str | bytes]] = []
     doc_text = None
     if args.json is not None:
         doc = result_json(result, units=args.units, characteristic=args.characteristic)
@@ -232,12 +280,20 @@ def _measure(args: argparse.Namespace) -> int:
         outputs.append((args.save_sheet, sheet_text(result.measurement.section, name=result.name,
                                                     units=sheet_units,
                                                     uncertainty=dict(result.measurement.uncertainty) or None)))
+    if args.report:
+        from .report import report_bytes
+
+        outputs.append((args.report, report_bytes(args.report, result, units=args.units, photo=pm,
+                                                  characteristic=args.characteristic)))
     overlay = getattr(args, "overlay", None)
     for target in [t for t, _ in outputs] + ([overlay] if overlay else []):
         if not Path(target).parent.is_dir():
             raise InputError(f"{target}: its folder does not exist; create it or choose another path")
-    for target, text in outputs:
-        write_atomic(target, text)
+    for target, data in outputs:
+        if isinstance(data, bytes):
+            write_atomic_bytes(target, data)
+        else:
+            write_atomic(target, data)
     if overlay and pm is not None:
         from .photo.overlay import write_overlay
 
@@ -250,6 +306,25 @@ def _measure(args: argparse.Namespace) -> int:
         print(format_table(result, units=args.units, budget=args.budget, characteristic=args.characteristic))
         for target, _ in outputs:
             print(f"\n  wrote {target}")
+    return 0
+
+
+def _export(args: argparse.Namespace) -> int:
+    from .errors import InputError
+    from .export import export_bytes, export_format
+    from .files import write_atomic_bytes
+    from .result import measure
+    from .uncertainty import DEFAULT_SEED
+
+    fmt = export_format(args.to)                       # a bad suffix is refused before any work
+    if not Path(args.to).parent.is_dir():
+        raise InputError(f"{args.to}: its folder does not exist; create it or choose another path")
+    measurement, _ = _read_measurement(args)
+    seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
+    result = measure(measurement, align=args.align, draws=args.draws, seed=seed)
+    write_atomic_bytes(args.to, export_bytes(fmt, result, units=args.units))
+    s = result.measurement.section
+    print(f"  wrote {args.to}: {result.name}, {s.n_parts} part(s), {s.n_holes} hole(s), {s.n_vertices} vertices")
     return 0
 
 

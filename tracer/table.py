@@ -8,7 +8,8 @@ from .properties import PROPERTY_NAMES
 from .result import CAUTION, Result
 from .units import from_mm, property_unit
 
-__all__ = ["format_table", "format_value", "format_measured"]
+__all__ = ["format_table", "format_value", "format_measured", "format_uncertainty", "budget_rows",
+           "describe_geometry"]
 
 # Inputs listed in a budget before the rest are summed into one line.
 _BUDGET_ROWS = 8
@@ -31,12 +32,7 @@ def format_table(result: Result, *, units: str = "mm", budget: bool = False, cha
     src = m.source
     head = [f"{result.name}"]
     where = src.get("path") or "(no file)"
-    what = src.get("geometry", src.get("kind", ""))
-    if "shape" in src:
-        what = f"shape {src['shape'].get('kind')}"
-    s = m.section
-    head.append(f"  from {src.get('kind', 'input')} {where}: {what}; {s.n_parts} part(s), {s.n_holes} hole(s), "
-                f"{s.n_vertices} vertices")
+    head.append(f"  from {src.get('kind', 'input')} {where}: {describe_geometry(result)}")
     if "aligned" in src:
         head.append(f"  turned {src['aligned']['rotation_deg']:.6g} deg about the centroid onto its principal axes")
     unc = result.uncertainty
@@ -74,6 +70,16 @@ def format_table(result: Result, *, units: str = "mm", budget: bool = False, cha
     lines.append("")
     lines.append(f"  {CAUTION}")
     return "\n".join(lines)
+
+
+def describe_geometry(result: Result) -> str:
+    """What the geometry is and its size, e.g. ``shape rectangle; 1 part(s), 0 hole(s), 92 vertices``."""
+    src = result.measurement.source
+    what = src.get("geometry", src.get("kind", ""))
+    if "shape" in src:
+        what = f"shape {src['shape'].get('kind')}"
+    s = result.measurement.section
+    return f"{what}; {s.n_parts} part(s), {s.n_holes} hole(s), {s.n_vertices} vertices"
 
 
 def format_value(v: float) -> str:
@@ -124,11 +130,13 @@ def format_measured(v: float, U: float) -> str:
     return f"{v / f:.{decimals}f}{tail} ± {U / f:.{decimals}f}{tail}"
 
 
-def _two(v: float) -> str:
+def format_uncertainty(v: float) -> str:
     """An uncertainty to two significant digits (JCGM 100:2008, 7.2.6).
 
-    >>> _two(97.5), _two(0.01234), _two(46012.0), _two(381750.0), _two(0.0)
-    ('98', '0.012', '46000', '380e3', '0')
+    >>> format_uncertainty(97.5), format_uncertainty(0.01234), format_uncertainty(46012.0)
+    ('98', '0.012', '46000')
+    >>> format_uncertainty(381750.0), format_uncertainty(0.0)
+    ('380e3', '0')
     """
     if not math.isfinite(v):
         return "n/a"
@@ -154,6 +162,27 @@ def _columns(rows: list[list[str]], right: set[int]) -> list[str]:
     return out
 
 
+def budget_rows(entries: list[dict], limit: int = _BUDGET_ROWS) -> list[tuple[str, float, float]]:
+    """The first `limit` lines of one property's budget, the rest summed into one line.
+
+    Parameters
+    ----------
+    entries : list of dict
+        ``Uncertainty.budget[key]``: ``input``, ``share`` (of u²) and ``u`` (mm units), largest first.
+
+    Returns
+    -------
+    list of (input, share, u)
+        u in the property's mm units; the summed line's u is the root sum of squares.
+    """
+    rows = [(str(e["input"]), float(e["share"]), float(e["u"])) for e in entries[:limit]]
+    rest = entries[limit:]
+    if rest:
+        rows.append((f"{len(rest)} other inputs", sum(float(e["share"]) for e in rest),
+                     math.sqrt(sum(float(e["u"]) ** 2 for e in rest))))
+    return rows
+
+
 def _budget_lines(result: Result, units: str) -> list[str]:
     unc = result.uncertainty
     if unc is None:
@@ -161,15 +190,8 @@ def _budget_lines(result: Result, units: str) -> list[str]:
     lines = ["  uncertainty budget: each input's share of u² and its own part of u (k = 1)"]
     for key, entries in unc.budget.items():
         unit = property_unit(key, units)
-        lines.append(f"    {key} (u = {_two(from_mm(result.u.get(key, math.nan), key, units))} {unit}):")
-        shown = entries[:_BUDGET_ROWS]
-        rest = entries[_BUDGET_ROWS:]
-        rows = [[e["input"], f"{100 * e['share']:.1f} %", f"{_two(from_mm(e['u'], key, units))} {unit}"]
-                for e in shown]
-        if rest:
-            share = sum(e["share"] for e in rest)
-            part = math.sqrt(sum(e["u"] ** 2 for e in rest))
-            rows.append([f"{len(rest)} other inputs", f"{100 * share:.1f} %",
-                         f"{_two(from_mm(part, key, units))} {unit}"])
+        lines.append(f"    {key} (u = {format_uncertainty(from_mm(result.u.get(key, math.nan), key, units))} {unit}):")
+        rows = [[name, f"{100 * share:.1f} %", f"{format_uncertainty(from_mm(part, key, units))} {unit}"]
+                for name, share, part in budget_rows(entries)]
         lines += ["    " + line for line in _columns(rows, right={1, 2})]
     return lines

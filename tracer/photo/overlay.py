@@ -16,7 +16,7 @@ from ..files import write_atomic_bytes
 from ..properties import Properties
 from .pipeline import PhotoMeasurement
 
-__all__ = ["overlay_image", "write_overlay"]
+__all__ = ["overlay_image", "overlay_bytes", "write_overlay"]
 
 
 def overlay_image(pm: PhotoMeasurement, props: Properties, u: dict[str, float] | None = None) -> np.ndarray:
@@ -57,20 +57,33 @@ def overlay_image(pm: PhotoMeasurement, props: Properties, u: dict[str, float] |
         return f"{key} = {text} {unit}"
 
     label = "   ".join([show("A", "mm2"), show("I1", "mm4"), show("I2", "mm4")]) + ("   (U = 2u)" if u else "")
-    cv2.putText(img, label, (10, 24 * lw), cv2.FONT_HERSHEY_SIMPLEX, 0.6 * lw, (0, 0, 0), 3 * lw, cv2.LINE_AA)
-    cv2.putText(img, label, (10, 24 * lw), cv2.FONT_HERSHEY_SIMPLEX, 0.6 * lw, (255, 255, 255), lw, cv2.LINE_AA)
+    size = 0.6 * lw
+    (tw, _), _ = cv2.getTextSize(label, cv2.FONT_HERSHEY_SIMPLEX, size, 3 * lw)
+    size *= min(1.0, (w - 20) / tw)                    # the whole label fits across the picture
+    cv2.putText(img, label, (10, 24 * lw), cv2.FONT_HERSHEY_SIMPLEX, size, (0, 0, 0), 3 * lw, cv2.LINE_AA)
+    cv2.putText(img, label, (10, 24 * lw), cv2.FONT_HERSHEY_SIMPLEX, size, (255, 255, 255), lw, cv2.LINE_AA)
     return img
+
+
+def overlay_bytes(pm: PhotoMeasurement, props: Properties, u: dict[str, float] | None = None, *,
+                  ext: str = ".png", max_side: int | None = None) -> bytes:
+    """The review picture encoded as `ext` (``.png`` or ``.jpg``), reduced to `max_side` px if given."""
+    import cv2
+
+    img = overlay_image(pm, props, u)
+    if max_side is not None and max(img.shape[:2]) > max_side:
+        f = max_side / max(img.shape[:2])
+        img = cv2.resize(img, None, fx=f, fy=f, interpolation=cv2.INTER_AREA)
+    ok, buf = cv2.imencode(ext, img)
+    if not ok:
+        raise OSError(f"the review picture could not be encoded as {ext}")
+    return buf.tobytes()
 
 
 def write_overlay(path: str | Path, pm: PhotoMeasurement, props: Properties,
                   u: dict[str, float] | None = None) -> None:
     """Write the review picture as PNG, atomically."""
-    import cv2
-
-    ok, buf = cv2.imencode(".png", overlay_image(pm, props, u))
-    if not ok:
-        raise OSError(f"{path}: the review picture could not be encoded")
-    write_atomic_bytes(path, buf.tobytes())
+    write_atomic_bytes(path, overlay_bytes(pm, props, u))
 
 
 def _dashed(cv2, img, ends, colour, lw) -> None:
