@@ -53,7 +53,15 @@ class Scene:
     member, ground : str
         ``"timber"`` (light end grain on a dark floor) or ``"steel"`` (grey on a light card).
     ruler : bool
-        Put a graduated ruler in view.
+        Put a graduated ruler in view (below the scene, along +x unless `ruler_at` says).
+    ruler_pitch : float
+        Its graduation [mm]: 1.0 for a metric rule, 25.4 / 16 for a sixteenth-inch one.
+    ruler_marks : tuple of int
+        Every n-th mark is longer, for each n (longest first): (10, 5) metric, (16, 8, 4, 2) inch.
+    ruler_at : (x, y, angle) or None
+        The ruler's start [mm] and direction [deg from +x]; None: along the bottom of the scene.
+    ruler_length : float
+        Its graduated length [mm].
     seed : int
         Texture and noise seed.
     sensor : (width, height) or None
@@ -84,6 +92,10 @@ class Scene:
     jpeg: int | None = 92
     member: str = "timber"
     ruler: bool = False
+    ruler_pitch: float = 1.0
+    ruler_marks: tuple[int, ...] = (10, 5)
+    ruler_at: tuple[float, float, float] | None = None
+    ruler_length: float = 300.0
     seed: int = 0
     margin: float = 40.0
     sensor: tuple[int, int] | None = None
@@ -136,10 +148,17 @@ def render(scene: Scene) -> Render:
         paper = (np.array([sx0, sy0]), np.array([sx1, sy1]))
     lo = np.minimum(paper[0], (sx0, sy0)) - scene.margin
     hi = np.maximum(paper[1], (sx1, sy1)) + scene.margin
-    ruler_at = None
+    ruler = None
     if scene.ruler:
-        lo[1] -= 40.0
-        ruler_at = (np.array([lo[0] + 10.0, lo[1] + 12.0]), min(300.0, hi[0] - lo[0] - 20.0))
+        if scene.ruler_at is None:
+            lo[1] -= 40.0
+            ruler = (np.array([lo[0] + 10.0, lo[1] + 12.0]), min(scene.ruler_length, hi[0] - lo[0] - 20.0), 0.0)
+        else:
+            x, y, a = scene.ruler_at
+            ruler = (np.array([x, y]), scene.ruler_length, a)
+            ends = _ruler_outline(ruler[0], ruler[1], a)
+            lo = np.minimum(lo, ends.min(axis=0) - 15.0)
+            hi = np.maximum(hi, ends.max(axis=0) + 15.0)
     P, K, (W, H) = _camera(scene, lo, hi)                 # 3-D mm -> image pixels
     Hc = P[:, [0, 1, 3]] / P[2, 3]                        # the face's plane (z = 0)
     k = _SUPERSAMPLE
@@ -194,15 +213,10 @@ def render(scene: Scene) -> Render:
         squares = [_rect(np.array([tx + (c - 1) * sq, ty + (r - 1) * sq]), np.array([tx + c * sq, ty + r * sq]))
                    for r in range(rows + 1) for c in range(cols + 1) if (r + c) % 2 == 0]
         paint.append((squares, 25.0))
-    if ruler_at is not None:
-        start, length = ruler_at
-        paint.append(([_rect(start, start + (length, 25.0))], 225.0))
-        ticks = []
-        for t in range(int(length) + 1):
-            tick = 8.0 if t % 10 == 0 else (5.0 if t % 5 == 0 else 3.0)
-            a = start + (t - 0.1, 25.0 - tick)
-            ticks.append(_rect(a, a + (0.2, tick)))
-        paint.append((ticks, 30.0))
+    if ruler is not None:
+        start, length, a = ruler
+        paint.append(([_ruler_outline(start, length, a)], 225.0))
+        paint.append((_ruler_ticks(start, length, a, scene.ruler_pitch, scene.ruler_marks), 30.0))
     for polys, value in paint:
         f = cover(polys)
         img = img * (1 - f) + value * f
@@ -304,6 +318,31 @@ def _texture(rng: np.random.Generator, h: int, w: int, *, scale: float, amplitud
     small = rng.normal(0.0, 1.0, (max(2, int(h / scale) + 2), max(2, int(w / scale) + 2))).astype(np.float32)
     big = cv2.resize(small, (w, h), interpolation=cv2.INTER_CUBIC)
     return amplitude * big / (big.std() + 1e-9)
+
+
+def _ruler_outline(start: np.ndarray, length: float, angle: float) -> np.ndarray:
+    """The ruler's strip, 25 mm wide, 8 mm longer than its graduation at each end [mm]."""
+    return _turned(_rect(np.array([-8.0, 0.0]), np.array([length + 8.0, 25.0])), start, angle)
+
+
+def _ruler_ticks(start: np.ndarray, length: float, angle: float, pitch: float,
+                 marks: tuple[int, ...]) -> list[np.ndarray]:
+    """Graduation marks 0.2 mm wide along the strip's top edge; every marks[i]-th one longer."""
+    ticks = []
+    for t in range(int(length / pitch + 1e-9) + 1):
+        tall = 3.0                                       # the finest marks; longer ones reach 8 mm
+        for level, n in enumerate(marks):
+            if t % n == 0:
+                tall = 3.0 + 5.0 * (len(marks) - level) / len(marks)
+                break
+        a = np.array([t * pitch - 0.1, 25.0 - tall])
+        ticks.append(_turned(_rect(a, a + (0.2, tall)), start, angle))
+    return ticks
+
+
+def _turned(poly: np.ndarray, start: np.ndarray, angle: float) -> np.ndarray:
+    c, s = math.cos(math.radians(angle)), math.sin(math.radians(angle))
+    return poly @ np.array([[c, s], [-s, c]]) + start
 
 
 def _rect(a: np.ndarray, b: np.ndarray) -> np.ndarray:
