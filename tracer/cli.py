@@ -147,6 +147,11 @@ def _parser() -> argparse.ArgumentParser:
                        help="assumed bound of the camera's tilt to the face without a target (default 5)")
     photo.add_argument("--texture", metavar="LENGTH",
                        help="cracks and specks narrower than this are texture (default 2mm)")
+    photo.add_argument("--ruler", metavar="auto|X1,Y1,X2,Y2",
+                       help="a ruler in view as the scale: auto finds it; or a rough line along it (pixels)")
+    photo.add_argument("--pitch", metavar="LENGTH", help="the ruler's graduation: 1mm (default), 1/16in, 1/32in")
+    photo.add_argument("--ruler-class", choices=("I", "II", "III"), default=None,
+                       help="the rule's accuracy class (default II, common for folding rules and tapes)")
     photo.add_argument("--lens", metavar="FILE", help="the camera's lens profile (tracer calibrate): distortion removed")
     photo.add_argument("--overlay", metavar="PATH.png", help="write the review picture of the trace")
     m.add_argument("--debug", action="store_true", help="show the traceback of an error")
@@ -233,7 +238,8 @@ def _read_measurement(args: argparse.Namespace):
 
     path = Path(args.input)
     photo_opts = {k: getattr(args, k)
-                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "lens", "overlay")
+                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "lens", "ruler", "pitch",
+                            "ruler_class", "overlay")
                   if getattr(args, k, None) is not None}
     if path.suffix.lower() == ".toml":
         if photo_opts:
@@ -243,8 +249,8 @@ def _read_measurement(args: argparse.Namespace):
 
     if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
         raise InputError(f"{path}: no such file")
-    kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture", "lens")
-          if k in photo_opts}
+    kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture", "lens", "ruler", "pitch",
+                                     "ruler_class") if k in photo_opts}
     if "max_tilt" in photo_opts:
         kw["max_tilt"] = photo_opts["max_tilt"]
     pm = measure_photo(path, name=getattr(args, "name", None), **kw)

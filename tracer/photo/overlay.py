@@ -1,7 +1,7 @@
 """The review picture: the photo with what was traced, so a person sees at a glance if it is right.
 
 Drawn on the photo: the traced boundary (green) and holes (orange), the scale reference's marks
-(target corners or the two scale points, blue), the centroid, and the principal axes (major
+(target corners, the two scale points or a ruler's ticks, blue) and the area it covers, the centroid, and the principal axes (major
 solid, minor dashed), mapped back from the mm plane into the image.
 """
 
@@ -33,8 +33,16 @@ def overlay_image(pm: PhotoMeasurement, props: Properties, u: dict[str, float] |
         colour = (60, 200, 60) if i == 0 else (0, 140, 255)
         pts = np.round(ring * 16).astype(np.int32).reshape(-1, 1, 2)
         cv2.polylines(img, [pts], True, colour, lw, lineType=cv2.LINE_AA, shift=4)
+    for poly in pm.plane.keep_out:                       # the reference's own area, never the member
+        pts = np.round(np.asarray(poly) * 16).astype(np.int32).reshape(-1, 1, 2)
+        cv2.polylines(img, [pts], True, (255, 120, 0), max(1, lw // 2), lineType=cv2.LINE_AA, shift=4)
+    many = len(pm.plane.marks) > 80                      # a ruler's ticks: dots, not rings
     for x, y in pm.plane.marks:
-        cv2.circle(img, (int(round(x * 16)), int(round(y * 16))), 3 * lw * 16, (255, 120, 0), lw, cv2.LINE_AA, 4)
+        centre = (int(round(x * 16)), int(round(y * 16)))
+        if many:
+            cv2.circle(img, centre, lw * 16, (255, 120, 0), -1, cv2.LINE_AA, 4)
+        else:
+            cv2.circle(img, centre, 3 * lw * 16, (255, 120, 0), lw, cv2.LINE_AA, 4)
     c = np.array([[props.cx, props.cy]])
     x0, y0, x1, y1 = pm.measurement.section.bounds
     half = 0.6 * math.hypot(x1 - x0, y1 - y0)

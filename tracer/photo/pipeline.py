@@ -14,15 +14,16 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
+from ..errors import InputError, MeasurementError
 from ..measurement import Measurement
 from ..uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError, TiltAllowance
 from ..units import parse_length
 from .contour import Trace, trace_boundary
 from .lens import LensProfile, read_profile
 from .load import Photo, load_photo
-from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_target,
-                    parse_target, parse_two_points)
+from .ruler import MIN_TICKS, RulerReading, pitch_check
+from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_ruler,
+                    map_from_target, parse_target, parse_two_points)
 from .segment import Segmentation, segment_member
 from .view import camera_view, image_side, side_faces
 
@@ -51,7 +52,8 @@ class PhotoMeasurement:
 def measure_photo(path: str | Path, *, target: str | None = None, scale: str | None = None,
                   dpi: float | None = None, known: str | None = None, seed: str | None = None,
                   max_tilt: float = DEFAULT_MAX_TILT, texture: str | None = None,
-                  name: str | None = None, lens: "str | Path | LensProfile | None" = None) -> PhotoMeasurement:
+                  name: str | None = None, lens: "str | Path | LensProfile | None" = None,
+                  ruler: str | None = None, pitch: str | None = None, ruler_class: str = "II") -> PhotoMeasurement:
     """Measure the member in the photo at `path`.
 
     Parameters
@@ -78,6 +80,12 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     lens : path or LensProfile, optional
         The camera's lens profile (``tracer calibrate``): points are undistorted before they are
         mapped, and its residual replaces the allowance for an uncorrected lens.
+    ruler : str, optional
+        ``auto`` (find a ruler in view) or ``X1,Y1,X2,Y2`` (a rough line along it) [px].
+    pitch : str, optional
+        The ruler's graduation (default 1mm; also 1/16in, 1/32in).
+    ruler_class : str
+        The rule's accuracy class, I, II (default, common for folding rules and tapes) or III.
 
     Raises
     ------
@@ -87,7 +95,8 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         No target found, nothing segmented, the member cut off (exit status 1).
     """
     photo = load_photo(path)
-    given = [k for k, v in (("--target", target), ("--scale", scale), ("--dpi", dpi)) if v is not None]
+    given = [k for k, v in (("--target", target), ("--scale", scale), ("--dpi", dpi), ("--ruler", ruler))
+             if v is not None]
     if len(given) > 1:
         raise InputError(f"give one scale reference; this call has {' and '.join(given)}")
     warnings: list[str] = []
@@ -102,6 +111,13 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     elif scale is not None:
         pts, length = parse_two_points(scale)
         plane = map_from_points(pts, length, max_tilt=max_tilt, lens=profile)
+    elif ruler is not None:
+        if profile is not None:
+            raise InputError("--ruler with --lens is not supported yet: measure with the ruler alone (a lens "
+                             "allowance is added) or use a target")
+        reading, pitch_mm = _read_ruler(photo, ruler, pitch, ruler_class)
+        pitch_check(pitch_mm, reading.long_every, pitch or "1mm", reading.longest_every)
+        plane = map_from_ruler(reading, pitch_mm, max_tilt=max_tilt, ruler_class=ruler_class)
     elif profile is None and (dpi is not None or (photo.dpi is not None and known is None)):
         plane = map_from_dpi(float(dpi if dpi is not None else photo.dpi),
                              stated="--dpi" if dpi is not None else "the file's metadata")
@@ -113,7 +129,8 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     known_dim = _parse_known(known) if known is not None else None
     if plane is None:
         plane = _pixels_plane(profile)
-    warnings += plane.warnings
+    if plane.record["method"] != "ruler":               # a ruler's map is made again where the member is
+        warnings += plane.warnings
     seed_xy = None
     if seed is not None:
         try:
@@ -131,6 +148,12 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
                          alpha=photo.alpha)
     smoothing = max(1.0, 0.25 * texture_px)
     trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
+    if plane.record["method"] == "ruler":
+        # The scale where the member lies along the ruler (its period changes under perspective).
+        plane = map_from_ruler(reading, pitch_mm, at_px=trace.rings_px[0].mean(axis=0), max_tilt=max_tilt,
+                               ruler_class=ruler_class)
+        trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
+        warnings += list(plane.warnings)
     if known_dim is not None:
         which, length = known_dim
         x0, y0, x1, y1 = trace.section.bounds
@@ -150,8 +173,9 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
              PointNoise(edge["scatter_mm"], correlation_length=edge["correlation_mm"], direction="normal",
                         label="edge scatter")]
     comps += list(plane.components)
-    if plane.record["method"] == "two points":
-        allowance, note = _perspective_allowance(plane, trace, photo, max_tilt)
+    if plane.record["method"] in ("two points", "ruler"):
+        allowance, note = _perspective_allowance(plane, trace, photo, max_tilt,
+                                                 across=reading if plane.record["method"] == "ruler" else None)
         comps.append(ScaleError(allowance / np.sqrt(3.0), distribution="rectangular", label="perspective"))
         warnings.append(note)
     if plane.record["method"] == "dpi":
@@ -239,22 +263,47 @@ def _known_plane(which: str, length: float, extent_px: float, max_tilt: float,
                     record=record, warnings=warn, lens=lens)
 
 
-def _perspective_allowance(plane: PlaneMap, trace: Trace, photo: Photo, max_tilt: float) -> tuple[float, str]:
-    """Half-width of the scale change between the scale points and the member under a tilt.
+def _perspective_allowance(plane: PlaneMap, trace: Trace, photo: Photo, max_tilt: float,
+                           across: "RulerReading | None" = None) -> tuple[float, str]:
+    """Half-width of the scale change between the scale reference and the member under a tilt.
 
     Under a tilt θ the scale changes across the view by about tan θ · d / D, d the distance from
-    the scale points to the member and D the camera's distance; D is taken as 0.7 times the
-    photo's width (a field of view of about 70°, common for phones and compact cameras).
+    the scale points to the member (for a ruler, from its axis: along it the fitted period follows
+    the change) and D the camera's distance; D is taken as 0.7 times the photo's width (a field of
+    view of about 70°, common for phones and compact cameras).
     """
     import math
 
-    mid = plane.marks.mean(axis=0)
     centre = trace.rings_px[0].mean(axis=0)
-    d = float(np.hypot(*(plane.to_mm(np.array([centre]))[0] - plane.to_mm(np.array([mid]))[0])))
-    width_mm = photo.shape[1] * plane.mm_per_px(centre)
+    s = plane.mm_per_px(centre)
+    if across is not None:
+        d = abs(across.across(centre)) * s
+        what = "the ruler's line is"
+    else:
+        mid = plane.marks.mean(axis=0)
+        d = float(np.hypot(*(plane.to_mm(np.array([centre]))[0] - plane.to_mm(np.array([mid]))[0])))
+        what = "the scale points are"
+    width_mm = photo.shape[1] * s
     a = math.tan(math.radians(max_tilt)) * d / (0.7 * width_mm)
-    return a, (f"the scale points are {d:.0f} mm from the member: perspective may change the scale by up to "
+    return a, (f"{what} {d:.0f} mm from the member: perspective may change the scale by up to "
                f"{100 * a:.1f} % between them (allowed for); put the ruler against the member's face")
+
+
+def _read_ruler(photo: Photo, ruler: str, pitch: str | None, ruler_class: str) -> tuple["RulerReading", float]:
+    """Find or follow the ruler, read it, and check its marks against the pitch."""
+    from .ruler import find_ruler, parse_pitch, parse_ruler, read_ruler, ruler_tolerance
+
+    pitch_mm = parse_pitch(pitch or "1mm")
+    ruler_tolerance(pitch_mm, 100.0, ruler_class)            # an unknown class is refused here
+    where = parse_ruler(ruler)
+    if isinstance(where, str):
+        reading = find_ruler(photo.gray)
+    else:
+        reading = read_ruler(photo.gray, where[0], where[1])
+        if reading is None:
+            raise MeasurementError(f"no ruler graduation found along --ruler {ruler}: looked for {MIN_TICKS} or "
+                                   "more evenly spaced marks within about an eighth of its length of that line")
+    return reading, pitch_mm
 
 
 def _cross_check(trace: Trace) -> list[str]:

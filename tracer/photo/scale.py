@@ -8,7 +8,10 @@ uncertainty adds, and a record for the result's ``source.scale``.
   least-squares homography (perspective removed), its covariance from the corner residuals;
 - two image points a known distance apart (``--scale``): a similarity, with an allowance for an
   unknown tilt (a one-sided cosine error) and for where the points were clicked;
-- a scanner's resolution (``--dpi``).
+- a scanner's resolution (``--dpi``);
+- a ruler in view (``--ruler``), read by :mod:`tracer.photo.ruler`: a similarity with the local
+  period of its graduation where the member lies, the fit's and the rule's own tolerance, and the
+  allowances for the tilt across it.
 
 With a lens profile (:mod:`tracer.photo.lens`) the map first undistorts the points it is given,
 so H acts on ideal (distortion-free) pixel positions; points are never moved otherwise.
@@ -34,7 +37,7 @@ from ..uncertainty import HomographyError, ScaleError, TiltAllowance
 from ..units import parse_length
 
 __all__ = ["PlaneMap", "parse_target", "parse_two_points", "map_from_target", "map_from_points",
-           "map_from_dpi", "find_corners", "LENS_ALLOWANCE", "DEFAULT_MAX_TILT"]
+           "map_from_dpi", "map_from_ruler", "find_corners", "LENS_ALLOWANCE", "DEFAULT_MAX_TILT"]
 
 #: Rectangular allowance on the scale where no lens profile corrects distortion (relative).
 LENS_ALLOWANCE = 0.003
@@ -198,6 +201,42 @@ def map_from_points(points: np.ndarray, length: float, *, max_tilt: float = DEFA
     warn = (f"no perspective correction: an unknown tilt of up to {max_tilt:g} deg is allowed for "
             "(--max-tilt changes it); a target removes it",)
     return PlaneMap(H=H, components=comps, record=record, marks=points, warnings=warn, lens=lens)
+
+
+def map_from_ruler(reading: Any, pitch: float, *, at_px: np.ndarray | None = None, max_tilt: float = DEFAULT_MAX_TILT,
+                   ruler_class: str = "II", lens: Any = None) -> PlaneMap:
+    """A similarity from a ruler's graduation: `pitch` [mm] per tick at the local period where
+    the member lies (`at_px`, projected on the ruler's axis; default the ruler's middle).
+
+    The uncertainty carries the period fit (the projective model's covariance), the rule's own
+    graduation tolerance (`ruler_class`, rectangular), and the one-sided allowance for an
+    unknown tilt across the ruler of up to `max_tilt` degrees. The reading is of ideal pixels
+    where a lens profile undistorted the image points first (its caller's concern).
+    """
+    from .ruler import ruler_tolerance
+
+    s0, s1 = reading.extent
+    s_at = 0.5 * (s0 + s1) if at_px is None else reading.along(at_px)
+    T, uT = reading.period_at(s_at)
+    s = pitch / T
+    H = np.array([[s, 0.0, 0.0], [0.0, -s, 0.0], [0.0, 0.0, 1.0]])
+    used = (s1 - s0) / T * pitch                                   # graduated length read [mm]
+    tol = ruler_tolerance(pitch, used, ruler_class)
+    comps = (ScaleError(uT / T, label="ruler period fit"),
+             ScaleError(tol / math.sqrt(3.0), distribution="rectangular", label=f"ruler graduation (class {ruler_class})"),
+             TiltAllowance(max_tilt))
+    ref = reading.origin + s_at * reading.direction
+    record = {"method": "ruler", **reading.record(), "pitch_mm": pitch, "period_px": T, "mm_per_px": s,
+              "scale_taken_at_px": ref.round(1).tolist(), "class": ruler_class,
+              "graduation_tolerance_percent": 100 * tol, "assumed_max_tilt_deg": max_tilt}
+    warn = [f"a ruler fixes the scale along its own direction only: an unknown tilt of up to {max_tilt:g} deg "
+            "across it is allowed for (--max-tilt changes it); a target removes it"]
+    span = s1 - s0
+    if s_at < s0 - 0.25 * span or s_at > s1 + 0.25 * span:
+        warn.append("the member lies beyond the end of the ruler's graduation; the scale there is extrapolated "
+                    "(put the ruler alongside the member)")
+    return PlaneMap(H=H, components=comps, record=record, keep_out=[reading.strip], marks=reading.ticks_px,
+                    warnings=tuple(warn), lens=lens)
 
 
 def map_from_dpi(dpi: float, *, stated: str) -> PlaneMap:

@@ -1,0 +1,177 @@
+"""A ruler in the photo as the scale, on the project's own renders of rules whose graduation is known.
+
+The renders place a metric or inch rule in the plane of the cut face; the camera's homography is
+known, so the true scale at every point of the face is too.
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+from tracer.errors import InputError, MeasurementError
+from tracer.photo.pipeline import measure_photo
+from tracer.photo.ruler import RULER_CLASSES, parse_pitch, parse_ruler, pitch_check, ruler_tolerance
+from tracer.photo.synth import Scene, render
+from tracer.properties import section_properties
+from tracer.result import measure
+from tracer.shapes import channel, rectangle, tube
+
+cv2 = pytest.importorskip("cv2")
+
+METRIC = dict(ruler_pitch=1.0, ruler_marks=(10, 5), ruler_length=300.0)
+SIXTEENTHS = dict(ruler_pitch=25.4 / 16, ruler_marks=(16, 8, 4, 2), ruler_length=254.0)
+THIRTY_SECONDS = dict(ruler_pitch=25.4 / 32, ruler_marks=(32, 16, 8, 4, 2), ruler_length=254.0)
+JOIST = rectangle(b=47, h=195, chord_angle=0.05)
+
+
+def _photo(tmp_path, scene: Scene, name="ruler.jpg"):
+    r = render(scene)
+    p = tmp_path / name
+    cv2.imwrite(str(p), r.image)
+    return r, p
+
+
+def _scene(section=JOIST, *, ruler=METRIC, at=(-20.0, -80.0, 4.0), **kw) -> Scene:
+    base = dict(section=section.translated(90.0, -30.0), target=None, ruler=True, px_per_mm=5.0, blur=1.2,
+                ruler_at=at, seed=4)
+    base.update(ruler)
+    base.update(kw)
+    return Scene(**base)
+
+
+def test_pitch_ruler_and_class_parsing():
+    assert parse_pitch("1mm") == 1.0
+    assert parse_pitch("1/16in") == pytest.approx(25.4 / 16)         # 1 in = 25.4 mm exactly (NIST SP 811)
+    assert parse_pitch("1/32 in") == pytest.approx(25.4 / 32)
+    assert parse_ruler("auto") == "auto"
+    np.testing.assert_array_equal(parse_ruler("10,20,310,25"), [[10, 20], [310, 25]])
+    with pytest.raises(InputError, match="write auto, or a rough line"):
+        parse_ruler("10,20,30")
+    # Class II over a 300 mm graduation: ±(0.3 + 0.2 · 1) mm, L rounded up to 1 m (MI-008, from memory).
+    assert ruler_tolerance(1.0, 300.0, "II") == pytest.approx(0.5 / 300.0)
+    assert RULER_CLASSES["I"] == (0.1, 0.1)
+    with pytest.raises(InputError, match="use one of I, II, III"):
+        ruler_tolerance(1.0, 300.0, "IV")
+
+
+@pytest.mark.parametrize("pitch,every,longest,outcome", [
+    (1.0, 5, 10, None),
+    (25.4 / 16, 2, 16, None),
+    (25.4 / 32, 2, 32, None),
+    (25.4 / 32, 2, 16, "too blurred"),                   # sixteenths read for thirty-seconds
+    (1.0, 8, 16, "as on an inch rule"),
+    (25.4 / 16, 5, 10, "as on a metric rule"),
+    (1.0, None, None, "were not found, so the pitch given cannot be confirmed"),
+    (1.0, 2, 2, "too blurred"),                          # 5 mm marks read for millimetres
+])
+def test_the_longer_marks_check_the_pitch(pitch, every, longest, outcome):
+    # A metric rule marks every 5th and 10th mm longer, the centimetres longest; an inch rule every
+    # 2nd, 4th, 8th sixteenth, the inches longest (common practice).
+    if outcome:
+        with pytest.raises(MeasurementError, match=outcome):
+            pitch_check(pitch, every, "given", longest)
+    else:
+        assert pitch_check(pitch, every, "given", longest) is None
+
+
+@pytest.mark.parametrize("ruler,blur,angle", [(METRIC, 1.2, 0.0), (METRIC, 1.6, 8.0), (SIXTEENTHS, 1.0, -6.0),
+                                              (THIRTY_SECONDS, 1.0, 3.0)])
+def test_a_frontal_ruler_gives_the_scale_within_a_thousandth(tmp_path, ruler, blur, angle):
+    # Square on, the camera's scale is px_per_mm everywhere: the ruler must give it within 0.1 %.
+    r, photo = _photo(tmp_path, _scene(ruler=ruler, at=(-20.0, -80.0, angle), blur=blur, noise=2.0, jpeg=90))
+    pm = measure_photo(photo, ruler="auto", pitch="1mm" if ruler is METRIC else
+                       ("1/16in" if ruler is SIXTEENTHS else "1/32in"))
+    rec = pm.measurement.source["scale"]
+    assert rec["method"] == "ruler" and rec["ticks_found"] >= 30
+    assert rec["mm_per_px"] * 5.0 == pytest.approx(1.0, abs=1e-3)
+    assert not any("too blurred" in w for w in pm.measurement.warnings)
+
+
+@pytest.mark.parametrize("seed", [4, 5, 6])
+def test_marks_too_blurred_are_read_right_or_refused(tmp_path, seed):
+    # Millimetre marks 5 px apart under a 2 px blur and JPEG: the 5 mm marks stand out more than
+    # the millimetres. The reading must count the millimetres in, or refuse, never take 5 mm for 1.
+    r, photo = _photo(tmp_path, _scene(at=(-20.0, -80.0, 8.0), blur=2.0, noise=2.0, jpeg=90, seed=seed))
+    try:
+        pm = measure_photo(photo, ruler="auto")
+    except MeasurementError as e:
+        assert "too blurred to read" in str(e) or "cannot be confirmed" in str(e)
+    else:
+        assert pm.measurement.source["scale"]["mm_per_px"] * 5.0 == pytest.approx(1.0, abs=1e-3)
+
+
+def test_a_rough_line_along_the_ruler_reads_the_same(tmp_path):
+    r, photo = _photo(tmp_path, _scene(at=(-20.0, -80.0, 4.0), tilt=6.0))
+    auto = measure_photo(photo, ruler="auto").measurement.source["scale"]
+    # Two clicks near the ends, a few pixels and a degree or two off the graduation.
+    (x0, y0), (x1, y1) = auto["axis_px"]
+    hint = f"{x0 + 15:.0f},{y0 + 9:.0f},{x1 - 12:.0f},{y1 - 14:.0f}"
+    clicked = measure_photo(photo, ruler=hint).measurement.source["scale"]
+    assert clicked["period_px"] == pytest.approx(auto["period_px"], rel=2e-4)
+
+
+def test_tilted_photos_with_a_ruler_cover_the_truth(tmp_path):
+    # Tilt up to 12 deg, blur, noise, JPEG; metric and inch rules; --max-tilt 12 states the bound.
+    # The k = 2 intervals of A, I1, I2 must cover the truth in at least 90 % of the renders.
+    rng = np.random.default_rng(9)
+    shapes = [JOIST, rectangle(b=75, h=150, wane={"top_left": 12.0}, chord_angle=0.05),
+              tube(d=114.3, t=6.3, chord_angle=0.05)]
+    covered = {k: [] for k in ("A", "I1", "I2")}
+    for i in range(9):
+        ruler = (METRIC, SIXTEENTHS)[i % 2]
+        scene = _scene(shapes[i % 3], ruler=ruler, at=(-20.0, -80.0, rng.uniform(-8, 8)), tilt=rng.uniform(0, 12),
+                       tilt_axis=rng.uniform(0, 180), blur=rng.uniform(0.8, 1.6), jpeg=int(rng.integers(80, 95)),
+                       seed=40 + i)
+        r, photo = _photo(tmp_path, scene, f"t{i}.jpg")
+        pm = measure_photo(photo, ruler="auto", pitch="1mm" if ruler is METRIC else "1/16in", max_tilt=12.0)
+        res = measure(pm.measurement, draws=300)
+        truth = section_properties(r.section).values()
+        for k in covered:
+            covered[k].append(abs(res.properties.values()[k] - truth[k]) <= 2 * res.u[k])
+        assert any("a ruler fixes the scale along its own direction only" in w for w in res.warnings)
+    for k in covered:
+        assert np.mean(covered[k]) >= 0.9, (k, covered[k])
+
+
+def test_ruler_errors_say_what_was_looked_for(tmp_path):
+    # An inch rule read as millimetres: its longer marks give it away.
+    r, photo = _photo(tmp_path, _scene(ruler=SIXTEENTHS))
+    with pytest.raises(MeasurementError, match="as on an inch rule; --pitch 1mm"):
+        measure_photo(photo, ruler="auto", pitch="1mm")
+    # No ruler in view.
+    r, photo = _photo(tmp_path, Scene(section=JOIST.translated(90.0, -30.0), px_per_mm=4.0,
+                                      target=(9, 6, 15.0), target_at=(-150.0, -60.0)), "target.jpg")
+    with pytest.raises(MeasurementError, match="no ruler found: looked for a straight strip"):
+        measure_photo(photo, ruler="auto")
+    # A rule too short in the photo to give 30 marks.
+    r, photo = _photo(tmp_path, _scene(ruler=dict(METRIC, ruler_length=20.0)), "short.jpg")
+    with pytest.raises(MeasurementError, match="30 or more evenly spaced"):
+        measure_photo(photo, ruler="auto")
+    with pytest.raises(InputError, match="give one scale reference"):
+        measure_photo(photo, ruler="auto", target="9x6:15mm")
+
+
+def test_cli_measures_with_a_ruler_and_draws_it(tmp_path):
+    r, photo = _photo(tmp_path, _scene(channel(h=152, b=76, tw=6.4, tf=9, r=8, chord_angle=0.05), ruler=SIXTEENTHS,
+                                       member="timber"))
+    over = tmp_path / "over.png"
+    run = subprocess.run([sys.executable, "-m", "tracer", "measure", str(photo), "--ruler", "auto", "--pitch", "1/16in",
+                          "--json", "-", "--overlay", str(over), "--draws", "200"], capture_output=True, text=True)
+    assert run.returncode == 0, run.stderr
+    rec = json.loads(run.stdout)["source"]["scale"]
+    assert rec["method"] == "ruler" and rec["pitch_mm"] == pytest.approx(25.4 / 16)
+    assert rec["long_marks_every"] in (2, 4, 8, 16) and rec["fit_residual_px_rms"] < 0.2
+    picture = cv2.imread(str(over))
+    assert picture is not None and picture.shape[:2] == r.image.shape[:2]
+    # The ticks found are drawn along the ruler: the picture differs from the photo there.
+    (x0, y0), (x1, y1) = rec["axis_px"]
+    xs, ys = np.linspace(x0, x1, 50).astype(int), np.linspace(y0, y1, 50).astype(int)
+    assert (np.abs(picture[ys, xs].astype(int) - r.image[ys, xs].astype(int)).sum(axis=1) > 60).mean() > 0.2
+    bad = subprocess.run([sys.executable, "-m", "tracer", "measure", str(photo), "--ruler", "auto", "--pitch", "1mm"],
+                         capture_output=True, text=True)
+    assert bad.returncode == 1 and "as on an inch rule" in bad.stderr

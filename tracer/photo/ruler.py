@@ -1,0 +1,634 @@
+"""A ruler in the photo: where it lies, the period of its graduation, and the scale that gives.
+
+The image is resampled along the ruler's axis into a straight strip (one pixel of the strip is
+one image pixel along the axis). Rows across it that carry the graduation are those whose
+spectrum peaks at the tick frequency; their mean is the ruler's profile. Ticks are located in
+it to sub-pixel precision (the centroid of each tick's contrast), numbered by their spacing,
+and fitted by a projective model along the line,
+
+    s(k) = (a + b k) / (1 + c k),
+
+the exact image of evenly spaced points on a line under any perspective; its derivative is the
+local period, so a ruler seen at an angle still gives the scale at the place it is used. The
+longer marks (every 5th and 10th on a metric rule, every 2nd, 4th, 8th and 16th on an inch
+rule) are counted to confirm the pitch the user gave.
+
+References
+----------
+.. [1] R. Hartley and A. Zisserman, *Multiple View Geometry in Computer Vision*, 2nd ed.
+       Cambridge University Press, 2004, sec. 2.5 (projective transformations of a line).
+.. [2] Directive 2014/32/EU (Measuring Instruments), Annex VII (MI-008, material measures of
+       length): maximum permissible error ±(a + b L) mm, class I a = 0.1, b = 0.1; class II
+       a = 0.3, b = 0.2; class III a = 0.6, b = 0.4; L in metres rounded up (from memory).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError, MeasurementError
+from ..units import parse_length
+
+__all__ = ["RulerReading", "parse_pitch", "pitch_check", "parse_ruler", "find_ruler", "read_ruler", "ruler_tolerance",
+           "MIN_TICKS", "RULER_CLASSES"]
+
+#: Fewest graduation marks a reading accepts.
+MIN_TICKS = 30
+#: Maximum permissible error of a rule's graduation, (a, b) of ±(a + b L) mm, L in m [2].
+RULER_CLASSES = {"I": (0.1, 0.1), "II": (0.3, 0.2), "III": (0.6, 0.4)}
+# Shortest period looked for [px]: below it the ticks blur into each other.
+_MIN_PERIOD = 2.5
+
+
+@dataclass(frozen=True)
+class RulerReading:
+    """What was read off a ruler.
+
+    Attributes
+    ----------
+    origin, direction, normal : ndarray (2,)
+        The axis: image point of s = 0, unit vector along the graduation, unit vector across.
+    s : ndarray (N,)
+        The ticks' positions along the axis [px].
+    k : ndarray (N,)
+        Their numbers (0 for the first found).
+    params : ndarray (3,)
+        a, b, c of the projective fit s(k).
+    cov : ndarray (3, 3)
+        Their covariance (from the fit's residuals).
+    residual_px : float
+        RMS residual of the fit [px].
+    band : (t0, t1)
+        The rows across [px from the axis] that carry the graduation.
+    strip : ndarray (4, 2)
+        The ruler's strip in the image [px], never the member.
+    long_every : int or None
+        The first longer marks fall every this many ticks (None: not seen).
+    longest_every : int or None
+        The longest marks (centimetres, inches) fall every this many ticks.
+    """
+
+    origin: np.ndarray
+    direction: np.ndarray
+    normal: np.ndarray
+    s: np.ndarray
+    k: np.ndarray
+    params: np.ndarray
+    cov: np.ndarray
+    residual_px: float
+    band: tuple[float, float]
+    strip: np.ndarray
+    long_every: int | None
+    longest_every: int | None = None
+
+    @property
+    def ticks_px(self) -> np.ndarray:
+        """The ticks' positions in the image (on the graduation band's middle line) [px]."""
+        t = 0.5 * (self.band[0] + self.band[1])
+        return self.origin + np.outer(self.s, self.direction) + t * self.normal
+
+    def along(self, px: np.ndarray) -> float:
+        """Position of an image point projected on the axis [px along]."""
+        return float((np.asarray(px, float) - self.origin) @ self.direction)
+
+    def across(self, px: np.ndarray) -> float:
+        """Distance of an image point from the axis [px]."""
+        return float((np.asarray(px, float) - self.origin) @ self.normal)
+
+    def period_at(self, s: float) -> tuple[float, float]:
+        """The local period ds/dk [px per tick] at `s` along the axis, and its standard uncertainty."""
+        def period(p: np.ndarray) -> float:
+            a, b, c = p
+            return (b - c * s) ** 2 / (b - a * c)
+
+        T = period(self.params)
+        g = np.empty(3)
+        for i in range(3):
+            d = np.zeros(3)
+            d[i] = 1e-6 * max(1.0, abs(self.params[i])) if i < 2 else 1e-10
+            g[i] = (period(self.params + d) - period(self.params - d)) / (2 * d[i])
+        return T, float(math.sqrt(max(g @ self.cov @ g, 0.0)))
+
+    @property
+    def extent(self) -> tuple[float, float]:
+        """The first and last tick found [px along]."""
+        return float(self.s.min()), float(self.s.max())
+
+    def record(self) -> dict:
+        (s0, s1) = self.extent
+        T0, _ = self.period_at(s0)
+        T1, _ = self.period_at(s1)
+        t = 0.5 * (self.band[0] + self.band[1])
+        ends = self.origin + np.outer([s0, s1], self.direction) + t * self.normal   # along the marks
+        return {"axis_px": ends.round(2).tolist(), "ticks_found": int(len(self.s)),
+                "period_change_percent": 100.0 * (T1 / T0 - 1.0), "fit_residual_px_rms": self.residual_px,
+                "long_marks_every": self.long_every, "longest_marks_every": self.longest_every}
+
+
+def parse_pitch(text: str) -> float:
+    """``1mm``, ``0.5mm``, ``1/16in``, ``1/32in`` -> the graduation's pitch [mm]."""
+    m = re.fullmatch(r"\s*(\d+)\s*/\s*(\d+)\s*([a-z]+)\s*", text or "")
+    if m:
+        num, den = int(m.group(1)), int(m.group(2))
+        if den == 0:
+            raise InputError(f"--pitch {text!r}: the fraction's denominator is zero")
+        return parse_length(f"{num / den!r}{m.group(3)}", field="--pitch")
+    return parse_length(text, field="--pitch")
+
+
+def parse_ruler(text: str) -> str | np.ndarray:
+    """``auto`` or ``X1,Y1,X2,Y2`` (a rough line along the ruler, pixels) -> "auto" or (2, 2)."""
+    if (text or "").strip().lower() == "auto":
+        return "auto"
+    try:
+        xy = [float(v) for v in text.split(",")]
+        if len(xy) != 4:
+            raise ValueError
+    except (ValueError, AttributeError):
+        raise InputError(f"--ruler {text!r}: write auto, or a rough line along the ruler as X1,Y1,X2,Y2 "
+                         "(pixels, e.g. a click at each end)") from None
+    pts = np.array(xy).reshape(2, 2)
+    if np.hypot(*(pts[1] - pts[0])) < 50:
+        raise InputError(f"--ruler {text!r}: the two ends are less than 50 px apart; click near the ruler's ends")
+    return pts
+
+
+def ruler_tolerance(pitch_mm: float, length_mm: float, cls: str) -> float:
+    """Relative half-width of a class `cls` rule's graduation error over `length_mm` [2]."""
+    if cls not in RULER_CLASSES:
+        raise InputError(f"--ruler-class {cls!r}: use one of {', '.join(RULER_CLASSES)}")
+    a, b = RULER_CLASSES[cls]
+    metres = max(1, math.ceil(length_mm / 1000.0 - 1e-9))
+    return (a + b * metres) / max(length_mm, pitch_mm)
+
+
+def pitch_check(pitch_mm: float, long_every: int | None, stated: str, longest_every: int | None = None) -> None:
+    """Hold the longer marks' spacing against the pitch (common practice): a metric rule marks
+    every 5th and 10th millimetre, its longest marks the centimetres; an inch rule marks every
+    2nd, 4th, 8th ... and its longest marks the inches. With the longest marks an inch rule read
+    at twice its pitch (the finest marks blurred away) is told from one read right.
+
+    Raises
+    ------
+    MeasurementError
+        The marks contradict the pitch, or were not seen (the pitch cannot be confirmed).
+    """
+    inch = abs(math.log2(25.4 / pitch_mm) - round(math.log2(25.4 / pitch_mm))) < 1e-6
+    if long_every is None or longest_every is None:
+        # Without them a reading of coarser marks (5 mm ones, blurred millimetres between) would
+        # pass for the graduation: refuse rather than be wrong by a whole factor.
+        raise MeasurementError(f"the ruler's longer marks (every 5th and 10th on a metric rule, every 2nd, 4th, 8th on "
+                               f"an inch rule) were not found, so the pitch {stated} cannot be confirmed; photograph "
+                               "the ruler closer or sharper, with its full marks in view")
+    power_of_two = long_every & (long_every - 1) == 0
+
+    def at(n: int, *mm: float) -> bool:
+        return any(abs(n * pitch_mm - v) < 1e-6 * v for v in mm)
+
+    if inch and power_of_two and at(longest_every, 25.4):
+        return None
+    if not inch and at(long_every, 1.0, 5.0, 10.0) and at(longest_every, 5.0, 10.0):
+        return None
+    if not inch and power_of_two and longest_every >= 8 and (longest_every & (longest_every - 1) == 0):
+        raise MeasurementError(f"the ruler's longer marks fall every {long_every} ticks, as on an inch rule; --pitch "
+                               f"{stated} expects every 5th and 10th; give --pitch 1/16in or 1/32in")
+    if inch and long_every in (5, 10):
+        raise MeasurementError(f"the ruler's longer marks fall every {long_every} ticks, as on a metric rule; --pitch "
+                               f"{stated} expects every 2nd, 4th, 8th ...; give --pitch 1mm")
+    raise MeasurementError(f"the ruler's marks do not fit --pitch {stated} (longer marks every {long_every} ticks, "
+                           f"the longest every {longest_every}): its finest marks were probably too blurred to read "
+                           "and coarser ones were read instead; photograph the ruler closer or sharper, or check "
+                           "--pitch")
+
+
+# ---------------------------------------------------------------------------------------------
+def find_ruler(gray: np.ndarray, *, keep_out: list[np.ndarray] = ()) -> RulerReading:
+    """Find a ruler in `gray` (H, W, 0..1) and read it.
+
+    Candidates are straight strips (at least 4 times longer than wide, filling their rectangle)
+    of either shade that keep clear of the other references; the first, longest first, whose
+    read gives :data:`MIN_TICKS` or more evenly spaced ticks is the ruler.
+
+    Raises
+    ------
+    MeasurementError
+        No such strip, or none with a readable graduation.
+    """
+    import cv2
+
+    H, W = gray.shape
+    f = min(1.0, 1000.0 / max(H, W))
+    small = cv2.resize(gray.astype(np.float32), (max(2, int(W * f)), max(2, int(H * f))),
+                       interpolation=cv2.INTER_AREA) if f < 1 else gray.astype(np.float32)
+    small = cv2.GaussianBlur(small, (0, 0), 1.0)
+    refs = np.zeros(small.shape, np.uint8)
+    for poly in keep_out:
+        cv2.fillPoly(refs, [np.round(np.asarray(poly) * f).astype(np.int32)], 1)
+    from .segment import _otsu
+
+    t = _otsu(small[refs == 0])
+    candidates = []
+    h, w = small.shape
+    for cls in (small > t, small <= t):
+        m = cv2.morphologyEx((cls & (refs == 0)).astype(np.uint8), cv2.MORPH_CLOSE, np.ones((3, 3), np.uint8))
+        n, labels, stats, _ = cv2.connectedComponentsWithStats(m, connectivity=8)
+        for i in range(1, n):
+            x, y, bw, bh, area = stats[i]
+            if area < 200 or x == 0 or y == 0 or x + bw == w or y + bh == h:
+                continue
+            cnts, _ = cv2.findContours((labels[y:y + bh, x:x + bw] == i).astype(np.uint8), cv2.RETR_EXTERNAL,
+                                       cv2.CHAIN_APPROX_SIMPLE)
+            (cx, cy), (a, b), ang = cv2.minAreaRect(max(cnts, key=cv2.contourArea) + np.array([x, y]))
+            long_, short = max(a, b), min(a, b)
+            if short < 3 or long_ / short < 4 or area / (a * b) < 0.6 or long_ < 0.1 * max(h, w):
+                continue
+            th = math.radians(ang if a >= b else ang + 90.0)
+            d = np.array([math.cos(th), math.sin(th)])
+            c = np.array([cx, cy])
+            candidates.append((long_, (c - 0.5 * long_ * d) / f, (c + 0.5 * long_ * d) / f, 0.5 * short / f))
+    for _, p0, p1, half in sorted(candidates, key=lambda c: -c[0]):
+        reading = read_ruler(gray, p0, p1, half_width=1.3 * half + 4.0)
+        if reading is not None:
+            return reading
+    # A rule of the ground's own shade shows no strip; its marks still make a row of small,
+    # like, evenly spaced blobs along a line.
+    line = _row_of_marks(gray, refs_full=keep_out)
+    if line is not None:
+        reading = read_ruler(gray, line[0], line[1], half_width=line[2])
+        if reading is not None:
+            return reading
+    raise MeasurementError(f"no ruler found: looked for a straight strip at least 4 times longer than wide with "
+                           f"{MIN_TICKS} or more evenly spaced graduation marks; give --ruler X1,Y1,X2,Y2 along it, "
+                           "or use a target")
+
+
+def _row_of_marks(gray: np.ndarray, *, refs_full: list[np.ndarray] = ()) -> tuple[np.ndarray, np.ndarray, float] | None:
+    """A line through the most small, elongated blobs of either shade (a rule's marks), by a
+    vectorised RANSAC on their centres; (p0, p1, half width) or None."""
+    import cv2
+
+    g8 = np.clip(gray * 255.0 + 0.5, 0, 255).astype(np.uint8)
+    H, W = g8.shape
+    refs = np.zeros((H, W), np.uint8)
+    for poly in refs_full:
+        cv2.fillPoly(refs, [np.round(np.asarray(poly)).astype(np.int32)], 1)
+    best = None
+    for invert in (False, True):
+        img = 255 - g8 if invert else g8
+        # Thin dark lines: the black-hat (closing minus image) picks marks narrower than 9 px.
+        hat = cv2.morphologyEx(img, cv2.MORPH_BLACKHAT, np.ones((9, 9), np.uint8))
+        _, bw = cv2.threshold(hat, 0, 255, cv2.THRESH_BINARY | cv2.THRESH_OTSU)
+        bw[refs > 0] = 0
+        n, labels, stats, cents = cv2.connectedComponentsWithStats(bw, connectivity=8)
+        a = stats[1:, 4]
+        long_side = np.maximum(stats[1:, 2], stats[1:, 3])
+        short = np.minimum(stats[1:, 2], stats[1:, 3])
+        ok = (a >= 3) & (a <= 600) & (long_side >= 2 * np.maximum(short, 1))
+        c = cents[1:][ok]
+        if len(c) < MIN_TICKS:
+            continue
+        rng = np.random.default_rng(0)
+        i, j = rng.integers(0, len(c), (2, 400))
+        keep = i != j
+        p, q = c[i[keep]], c[j[keep]]
+        d = q - p
+        nrm = np.hypot(d[:, 0], d[:, 1])
+        good = nrm > 20
+        p, d, nrm = p[good], d[good], nrm[good]
+        normal = np.column_stack([-d[:, 1], d[:, 0]]) / nrm[:, None]
+        dist = np.abs(np.einsum("lnk,lk->ln", c[None, :, :] - p[:, None, :], normal))
+        votes = (dist < 2.0).sum(axis=1)
+        k = int(np.argmax(votes))
+        if votes[k] >= MIN_TICKS and (best is None or votes[k] > best[0]):
+            inl = c[dist[k] < 2.0]
+            u = d[k] / nrm[k]
+            t = (inl - p[k]) @ u
+            lens = long_side[ok][dist[k] < 2.0]
+            best = (int(votes[k]), p[k] + t.min() * u, p[k] + t.max() * u, float(2.0 * np.median(lens) + 6.0))
+    if best is None:
+        return None
+    return best[1], best[2], best[3]
+
+
+def read_ruler(gray: np.ndarray, p0: np.ndarray, p1: np.ndarray, *, half_width: float | None = None) -> RulerReading | None:
+    """Read the graduation along the rough line `p0`-`p1` [px]; None when none is there.
+
+    The line's direction is refined until the band of marks runs along the resampled rows: the
+    period is read along the graduation's own line.
+    """
+    p0, p1 = np.asarray(p0, float), np.asarray(p1, float)
+    length = float(np.hypot(*(p1 - p0)))
+    d = (p1 - p0) / length
+    W = float(half_width) if half_width is not None else max(40.0, 0.12 * length)
+    margin = 0.05 * length
+    origin = p0 - margin * d
+    L = length + 2 * margin
+    reading = None
+    for _ in range(3):                                   # refine the direction from the ticks
+        n = np.array([-d[1], d[0]])
+        reading = _read_along(gray, origin, d, n, L, W)
+        if reading is None:
+            return None
+        slope = reading.pop("slope")
+        if abs(slope) < 1e-4:
+            break
+        d = d + slope * n
+        d /= np.linalg.norm(d)
+        origin = 0.5 * (p0 + p1) - 0.5 * L * d              # turned about the line's middle
+    n = np.array([-d[1], d[0]])
+    return RulerReading(origin=origin, direction=d, normal=n, **reading)
+
+
+def _read_along(gray: np.ndarray, origin: np.ndarray, d: np.ndarray, n: np.ndarray, L: float,
+                W: float) -> dict | None:
+    import cv2
+
+    ns, nt = int(L) + 1, 2 * int(math.ceil(W)) + 1
+    s = np.arange(ns, dtype=np.float64)
+    t = np.arange(nt, dtype=np.float64) - (nt - 1) / 2
+    X = origin[0] + s[None, :] * d[0] + t[:, None] * n[0]
+    Y = origin[1] + s[None, :] * d[1] + t[:, None] * n[1]
+    R = cv2.remap(gray.astype(np.float32), X.astype(np.float32), Y.astype(np.float32), cv2.INTER_LINEAR,
+                  borderMode=cv2.BORDER_CONSTANT, borderValue=float("nan"))
+    ok = np.isfinite(R)
+    if ok.mean() < 0.5:
+        return None
+    R = np.where(ok, R, np.nanmedian(R))
+    # The tick frequency: the peak of the rows' mean spectrum between MIN_TICKS per length and
+    # the shortest readable period.
+    nfft = 1 << int(math.ceil(math.log2(4 * ns)))
+    win = np.hanning(ns)
+    rows = R - R.mean(axis=1, keepdims=True)
+    P = np.abs(np.fft.rfft(rows * win, n=nfft, axis=1)) ** 2
+    freq = np.fft.rfftfreq(nfft)
+    lo, hi = MIN_TICKS / L, 1.0 / _MIN_PERIOD
+    sel = (freq >= lo) & (freq <= hi)
+    if not sel.any():
+        return None
+    mean_p = P[:, sel].mean(axis=0)
+    floor = float(np.median(mean_p))
+    # Candidate frequencies: strong local peaks, highest first. A rule's longer marks make peaks
+    # at fractions of the tick frequency and narrow ticks make harmonics above it; the reading
+    # that numbers the ticks one by one decides.
+    is_peak = (mean_p >= np.roll(mean_p, 1)) & (mean_p >= np.roll(mean_p, -1)) & (mean_p > 20.0 * max(floor, 1e-20))
+    cand = np.flatnonzero(sel)[np.flatnonzero(is_peak)]
+    cand = cand[np.argsort(-P[:, cand].mean(axis=0))][:6]
+    for jj in sorted(cand, key=lambda j: -freq[j]):
+        got = _read_at(R, t, P, int(jj), 1.0 / float(freq[jj]))
+        if got is not None:
+            break
+    else:
+        return None
+    s_t, k, params, cov, rms, r0, r1, T0 = got
+    # Marks between the ticks read: the finest graduation is there, too blurred to read mark by
+    # mark (the longer marks were read). They are counted in: each tick read is m of them.
+    band_prof = R[r0:r1 + 1].mean(axis=0)
+    factor = 1
+    for _ in range(3):
+        finer = _finer_marks(band_prof, params, k, T0)
+        if not finer:
+            break
+        k, T0, factor = k * finer, T0 / finer, factor * finer
+        params = params / np.array([1.0, finer, finer])
+        cov = cov / np.outer([1.0, finer, finer], [1.0, finer, finer])
+    if T0 < _MIN_PERIOD:
+        raise MeasurementError(f"the ruler's finest marks are {T0:.1f} px apart, too close to read; photograph "
+                               "it closer, or use a target")
+    # The graduation's own line: where the band of marks lies across, chunk by chunk along (under
+    # perspective the marks need not be square to it, so their slant would mislead).
+    slope = _band_slope(R, t, s_t, T0)
+    prof = R[r0:r1 + 1].mean(axis=0).astype(np.float64)
+    band = (float(t[r0]), float(t[r1]))
+    levels = _mark_levels(R, prof, s_t, k / factor, r0, r1, T0 * factor)
+    long_every, longest_every = (None if v is None else v * factor for v in levels)
+    strip = _strip(R, t, r0, r1, s_t, T0, origin, d, n)
+    return {"s": s_t, "k": k, "params": params, "cov": cov, "residual_px": rms, "band": band,
+            "strip": strip, "long_every": long_every, "longest_every": longest_every, "slope": slope}
+
+
+def _read_at(R: np.ndarray, t: np.ndarray, P: np.ndarray, jj: int, T0: float):
+    """Ticks at the period `T0` (spectrum bin `jj`): the band of rows, the ticks, the fit; or None."""
+    nt = len(t)
+    row_p = P[:, max(jj - 2, 0): jj + 3].sum(axis=1)
+    best = int(np.argmax(row_p))
+    strong = row_p >= 0.3 * row_p[best]
+    r0 = r1 = best
+    while r0 > 0 and strong[r0 - 1]:
+        r0 -= 1
+    while r1 < nt - 1 and strong[r1 + 1]:
+        r1 += 1
+    prof = R[r0:r1 + 1].mean(axis=0).astype(np.float64)
+    ticks = _ticks(prof, T0)
+    if ticks is None:
+        return None
+    s_t, k = ticks
+    params, cov, rms, keep = _fit(s_t, k)
+    if rms > 0.15 * T0 or keep.sum() < MIN_TICKS:
+        return None
+    return s_t[keep], k[keep], params, cov, rms, r0, r1, T0
+
+
+def _ticks(prof: np.ndarray, T0: float) -> tuple[np.ndarray, np.ndarray] | None:
+    """Sub-pixel tick positions in a profile and their numbers (the longest even run)."""
+    q = _tick_signal(prof, T0)
+    peaks = _peaks(q, max(1, int(0.6 * T0)), 0.3 * float(np.std(q)))
+    if len(peaks) < MIN_TICKS:
+        return None
+    s = _centroids(q, peaks.astype(np.float64), T0)
+    gaps = np.diff(s) / T0
+    steps = np.round(gaps)
+    even = (np.abs(gaps - steps) < 0.2) & (steps >= 1) & (steps <= 2)
+    if not even.any() or np.mean(steps[even] == 1) < 0.8:
+        return None                                   # mostly every other: a harmonic, not the ticks
+    # The longest run of evenly spaced ticks (noise beyond the rule's ends breaks it).
+    best, start = (0, 0), 0
+    for i, e in enumerate(np.append(even, False)):
+        if not e:
+            if i - start > best[1] - best[0]:
+                best = (start, i)
+            start = i + 1
+    i0, i1 = best
+    if i1 - i0 + 1 < MIN_TICKS:
+        return None
+    s = s[i0:i1 + 1]
+    k = np.concatenate([[0], np.cumsum(steps[i0:i1])]).astype(np.float64)
+    return s, k
+
+
+def _tick_signal(prof: np.ndarray, T0: float) -> np.ndarray:
+    """The profile less its running mean over three periods, turned so that ticks are peaks
+    (narrow ticks make a skewed profile: dark ticks on a light rule give a long tail below)."""
+    hp = _highpass(np.asarray(prof, np.float64), T0)
+    return -hp if np.mean(hp**3) < 0 else hp
+
+
+def _highpass(x: np.ndarray, T0: float) -> np.ndarray:
+    """`x` less its running mean over about three periods, along the last axis."""
+    size = max(3, int(round(3 * T0))) | 1
+    pad = np.pad(x, [(0, 0)] * (x.ndim - 1) + [(size // 2, size // 2)], mode="edge")
+    c = np.concatenate([np.zeros(x.shape[:-1] + (1,)), np.cumsum(pad, axis=-1)], axis=-1)
+    return x - (c[..., size:] - c[..., :-size]) / size
+
+
+def _peaks(q: np.ndarray, distance: int, height: float) -> np.ndarray:
+    """Indices of the highest points of `q` within ±`distance` that exceed `height`."""
+    from numpy.lib.stride_tricks import sliding_window_view
+
+    w = 2 * distance + 1
+    local = sliding_window_view(np.pad(q, distance, mode="constant", constant_values=-np.inf), w).max(axis=1)
+    return np.flatnonzero((q >= local) & (q > height))
+
+
+def _centroids(q: np.ndarray, at: np.ndarray, T0: float) -> np.ndarray:
+    """Centroid of each tick's contrast within ±0.4 period of `at` (vectorised)."""
+    r = max(1, int(round(0.4 * T0)))
+    offs = np.arange(-r, r + 1)
+    idx = np.clip(np.round(at).astype(int)[:, None] + offs[None, :], 0, len(q) - 1)
+    v = q[idx]
+    v = v - v.min(axis=1, keepdims=True)
+    wsum = v.sum(axis=1)
+    c = (v * idx).sum(axis=1) / np.where(wsum > 0, wsum, 1.0)
+    return np.where(wsum > 0, c, at)
+
+
+def _band_slope(R: np.ndarray, t: np.ndarray, s: np.ndarray, T0: float) -> float:
+    """d(across)/d(along) of the band of marks: its centre across, in four chunks along."""
+    edges = np.linspace(s.min(), s.max(), 5).astype(int)
+    mids, centres = [], []
+    for i0, i1 in zip(edges[:-1], edges[1:]):
+        chunk = R[:, i0:i1 + 1].astype(np.float64)
+        if chunk.shape[1] < 3 * T0:
+            continue
+        e = np.var(_highpass(chunk, T0), axis=1)
+        w = np.where(e >= 0.5 * e.max(), e, 0.0)
+        centres.append(float((w * t).sum() / w.sum()))
+        mids.append(0.5 * (i0 + i1))
+    if len(mids) < 2:
+        return 0.0
+    return float(np.polyfit(mids, centres, 1)[0])
+
+
+def _fit(s: np.ndarray, k: np.ndarray) -> tuple[np.ndarray, np.ndarray, float, np.ndarray]:
+    """Projective fit s = (a + b k) / (1 + c k): linear start, Gauss-Newton, 4σ outliers out."""
+    keep = np.ones(len(s), bool)
+    p = np.zeros(3)
+    for _ in range(3):
+        A = np.column_stack([np.ones(keep.sum()), k[keep], -k[keep] * s[keep]])
+        p = np.linalg.lstsq(A, s[keep], rcond=None)[0]
+        for _ in range(5):
+            a, b, c = p
+            den = 1 + c * k[keep]
+            model = (a + b * k[keep]) / den
+            J = np.column_stack([1 / den, k[keep] / den, -(a + b * k[keep]) * k[keep] / den**2])
+            step = np.linalg.lstsq(J, s[keep] - model, rcond=None)[0]
+            p = p + step
+        a, b, c = p
+        r = s - (a + b * k) / (1 + c * k)
+        sigma = 1.4826 * float(np.median(np.abs(r[keep] - np.median(r[keep])))) + 1e-9
+        new = np.abs(r) < 4 * max(sigma, 0.01)
+        if (new == keep).all():
+            break
+        keep = new
+    a, b, c = p
+    den = 1 + c * k[keep]
+    J = np.column_stack([1 / den, k[keep] / den, -(a + b * k[keep]) * k[keep] / den**2])
+    r = s[keep] - (a + b * k[keep]) / den
+    dof = max(1, keep.sum() - 3)
+    rms = float(np.sqrt(np.sum(r**2) / dof))
+    cov = rms**2 * np.linalg.pinv(J.T @ J)
+    return p, cov, rms, keep
+
+
+def _finer_marks(prof: np.ndarray, params: np.ndarray, k: np.ndarray, T0: float) -> int | None:
+    """2 or 5 where marks lie between the ticks read at halves or fifths of their spacing.
+
+    The profile's tick signal at k + j/m is set against its value a half step (1/2m) to either
+    side, averaged over every tick; a finer graduation stands out of the noise even where each mark
+    alone is lost in it.
+    """
+    q = _tick_signal(prof, T0)
+    a, b, c = params
+    kk = np.arange(k.min(), k.max())
+
+    def at(x: np.ndarray) -> np.ndarray:
+        pos = (a + b * x) / (1 + c * x)
+        return np.interp(pos, np.arange(len(q)), q)
+
+    for m, j in ((2, np.array([1])), (5, np.array([2, 3]))):
+        # (for fifths, the places next to the ticks read are left out: their blurred flanks would
+        # swamp the comparison)
+        sub = at(kk[:, None] + j[None, :] / m)
+        mid = 0.5 * (at(kk[:, None] + (j[None, :] - 0.5) / m) + at(kk[:, None] + (j[None, :] + 0.5) / m))
+        diff = (sub - mid).ravel()
+        if len(diff) > 10 and diff.mean() > 4.0 * diff.std() / math.sqrt(len(diff)) and diff.mean() > 0:
+            return m
+    return None
+
+
+def _mark_levels(R: np.ndarray, prof: np.ndarray, s: np.ndarray, k: np.ndarray, r0: int, r1: int,
+                 T0: float) -> tuple[int | None, int | None]:
+    """Every how many ticks the longer marks fall: the first longer level and the longest.
+
+    Rows beyond the graduation band are read three at a time, outward on both sides: where only
+    some marks reach, those marks' spacing (in ticks) is their level's.
+    """
+    q_band = max(float(np.median(_contrast_at(prof, s, T0))), 1e-9)
+    levels = []
+    for side in (-1, 1):
+        start = r0 - 1 if side < 0 else r1 + 1
+        for off in range(0, len(R), 2):
+            a = start + side * off
+            rows = slice(min(a, a + side * 2), max(a, a + side * 2) + 1)
+            if rows.start < 0 or rows.stop > len(R):
+                break
+            q = _contrast_at(R[rows].mean(axis=0), s, T0) / q_band
+            tall = q > 0.5
+            if tall.sum() < 3 or tall.mean() > 0.6:
+                continue
+            gaps = np.diff(k[tall]).astype(int)
+            gaps = gaps[gaps > 0]
+            if not len(gaps):
+                continue
+            m = int(np.bincount(gaps).argmax())
+            if np.mean(gaps == m) >= 0.7:                  # an even row of marks, not noise
+                levels.append(m)
+    if not levels:
+        return None, None
+    return min(levels), max(levels)
+
+
+def _contrast_at(prof: np.ndarray, s: np.ndarray, T0: float) -> np.ndarray:
+    """Each tick's contrast in a profile: how far it stands from its surroundings."""
+    q = _tick_signal(prof, T0)
+    idx = np.clip(np.round(s).astype(int), 0, len(q) - 1)
+    return q[idx]
+
+
+def _strip(R: np.ndarray, t: np.ndarray, r0: int, r1: int, s: np.ndarray, T0: float, origin: np.ndarray,
+           d: np.ndarray, n: np.ndarray) -> np.ndarray:
+    """The ruler's strip in the image: the rows round the band with the rule's own shade."""
+    i0, i1 = int(max(0, s.min() - 2 * T0)), int(min(R.shape[1], s.max() + 2 * T0))
+    med = np.median(R[:, i0:i1], axis=1)
+    inside = float(np.median(med[r0:r1 + 1]))
+    outside = float(np.median(np.concatenate([med[:2], med[-2:]])))
+    if abs(inside - outside) > 0.05:
+        like = np.abs(med - inside) < 0.5 * abs(inside - outside)
+        a = b = (r0 + r1) // 2
+        while a > 0 and like[a - 1]:
+            a -= 1
+        while b < len(like) - 1 and like[b + 1]:
+            b += 1
+    else:
+        # A rule of the ground's own shade: no edge to find, and nothing to take for a member;
+        # the graduation and its longer marks are what must be kept out.
+        w = r1 - r0 + 1
+        a, b = max(0, r0 - 3 * w), min(len(med) - 1, r1 + 3 * w)
+    ext = 0.06 * (s.max() - s.min()) + 3 * T0
+    s0, s1 = s.min() - ext, s.max() + ext
+    ta, tb = t[a] - 3.0, t[b] + 3.0
+    corners = np.array([[s0, ta], [s1, ta], [s1, tb], [s0, tb]])
+    return origin + corners[:, :1] * d + corners[:, 1:] * n
