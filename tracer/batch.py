@@ -805,7 +805,7 @@ th{background:#eef2f5;cursor:pointer;user-select:none;position:sticky;top:0}
 th[aria-sort=ascending]::after{content:" \\25B2"}th[aria-sort=descending]::after{content:" \\25BC"}
 td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 tr.failed td{background:#fdf3f1}tr.not-run td{color:#777}
-td.reason{max-width:28em;font-size:.9em}
+td.reason{max-width:28em;font-size:.9em}td.reason ul{margin:.2em 0;padding-left:1.2em}
 img{display:block;max-width:160px;max-height:120px}
 """
 
@@ -862,8 +862,15 @@ def _index_html(rows: list[dict[str, Any]], out: Path, plan: dict) -> str:
                 continue
             text = format_measured(p["value"], 2 * p["u"]) if p.get("u") is not None else format_value(p["value"])
             cells.append(f'<td class="num" data-v="{p["value"]!r}">{e(text)}</td>')
-        note = row["reason"] if row["status"] != "done" else "; ".join(doc.get("warnings", []))
-        cells.append(f'<td class="reason">{e(note)}</td>')
+        warnings = doc.get("warnings", [])
+        if row["status"] != "done":
+            note = e(row["reason"])
+        elif warnings:
+            note = (f"<details><summary>{len(warnings)} warning{'s' if len(warnings) > 1 else ''}</summary><ul>"
+                    + "".join(f"<li>{e(w)}</li>" for w in warnings) + "</ul></details>")
+        else:
+            note = ""
+        cells.append(f'<td class="reason">{note}</td>')
         cls = row["status"].replace(" ", "-")
         body.append(f'<tr class="{cls}">' + "".join(cells) + "</tr>")
     n = {s: sum(r["status"] == s for r in rows) for s in ("done", "failed", "not run")}
