@@ -325,13 +325,15 @@ def run_batch(source: str | Path, out: str | Path, *, defaults: dict[str, Any] |
         except _WorkerDied as e:
             broken = e
         finally:
-            inventory, index = rebuild_inventory(out)
+            inventory, index, rows = _rebuild(out)
     if broken is not None:
         raise MeasurementError(f"a worker process died ({broken}); the items measured so far are kept: rerun the "
                                "same command to go on (fewer --jobs if memory is short)")
-    finished = counts["done"] + counts["failed"]
-    return BatchSummary(total=len(items), done=counts["done"], skipped=skipped, failed=counts["failed"],
-                        not_run=len(todo) - finished, elapsed=time.perf_counter() - t0, interrupted=interrupted,
+    # Counted from the records: after a stop, the items in hand were finished all the same.
+    ran = {it.name for it in todo}
+    status = [r["status"] for r in rows if r["name"] in ran]
+    return BatchSummary(total=len(items), done=status.count("done"), skipped=skipped, failed=status.count("failed"),
+                        not_run=status.count("not run"), elapsed=time.perf_counter() - t0, interrupted=interrupted,
                         out=out, inventory=inventory, index=index)
 
 
@@ -346,15 +348,7 @@ def rebuild_inventory(out: str | Path) -> tuple[Path, Path]:
     (Path, Path)
         The inventory and the index written.
     """
-    out = Path(out)
-    try:
-        plan = json.loads((out / _PLAN).read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        raise InputError(f"{out}: no batch plan ({_PLAN}) here; run tracer batch into this folder first") from None
-    rows = [_row(out, entry) for entry in plan["items"]]
-    inventory, index = out / "inventory.csv", out / "index.html"
-    write_atomic(inventory, _inventory_csv(rows))
-    write_atomic(index, _index_html(rows, out, plan))
+    inventory, index, _ = _rebuild(Path(out))
     return inventory, index
 
 
@@ -727,6 +721,18 @@ def _section_thumbnail(section: Any) -> bytes:
 
 
 # -- the inventory -----------------------------------------------------------------------------------
+def _rebuild(out: Path) -> tuple[Path, Path, list[dict[str, Any]]]:
+    try:
+        plan = json.loads((out / _PLAN).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        raise InputError(f"{out}: no batch plan ({_PLAN}) here; run tracer batch into this folder first") from None
+    rows = [_row(out, entry) for entry in plan["items"]]
+    inventory, index = out / "inventory.csv", out / "index.html"
+    write_atomic(inventory, _inventory_csv(rows))
+    write_atomic(index, _index_html(rows, out, plan))
+    return inventory, index, rows
+
+
 def _row(out: Path, entry: dict) -> dict[str, Any]:
     """One inventory row of a plan entry, from its records in `out`."""
     name, key = entry["name"], entry["key"]
