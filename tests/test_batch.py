@@ -278,19 +278,7 @@ def test_kill_in_the_middle_then_rerun_matches_an_uninterrupted_run(yard, batch,
     k = tmp_path / "killed"
     cmd = [sys.executable, "-m", "tracer", "batch", str(yard), "--out", str(k), "--jobs", "1", "--report", "none",
            "--target", "6x4:10mm"]
-    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-    try:
-        deadline = time.monotonic() + 120
-        while time.monotonic() < deadline and proc.poll() is None:
-            if len(list(k.glob("*.json"))) >= 3:               # the plan and two records
-                break
-            time.sleep(0.02)
-        assert proc.poll() is None, "the batch ended before it could be killed"
-        proc.send_signal(signal.SIGKILL)
-        proc.wait(timeout=30)
-    finally:
-        if proc.poll() is None:
-            proc.kill()
+    _stop_after_two(cmd, k, signal.SIGKILL)
     records = [p for p in k.glob("*.json") if p.name != "batch.json"]
     assert 2 <= len(records) < 7
     for p in records:
@@ -309,6 +297,41 @@ def test_kill_in_the_middle_then_rerun_matches_an_uninterrupted_run(yard, batch,
     text = (k / "inventory.csv").read_text()
     rebuild_inventory(k)
     assert (k / "inventory.csv").read_text() == text
+
+
+def _stop_after_two(cmd: list[str], out: Path, sig: int) -> subprocess.CompletedProcess:
+    """Run `cmd`, send `sig` once two items have their records in `out`, and wait for it to end."""
+    # SIGINT as at a terminal, even where this test runs with it ignored (a background job).
+    proc = subprocess.Popen(cmd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL))
+    try:
+        deadline = time.monotonic() + 120
+        while time.monotonic() < deadline and proc.poll() is None:
+            if len(list(out.glob("*.json"))) >= 3:             # the plan and two records
+                break
+            time.sleep(0.02)
+        assert proc.poll() is None, "the batch ended before it could be stopped"
+        proc.send_signal(sig)
+        stdout, stderr = proc.communicate(timeout=60)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    return subprocess.CompletedProcess(cmd, proc.returncode, stdout, stderr)
+
+
+def test_ctrl_c_finishes_the_items_in_hand_and_writes_the_inventory(yard, tmp_path):
+    out = tmp_path / "stopped"
+    cmd = [sys.executable, "-m", "tracer", "batch", str(yard), "--out", str(out), "--jobs", "1", "--report", "none",
+           "--target", "6x4:10mm"]
+    r = _stop_after_two(cmd, out, signal.SIGINT)
+    assert r.returncode == 130 and "stopped; run the same command again to go on" in r.stderr
+    rows, _ = _inventory(out / "inventory.csv")
+    assert len(rows) == 7
+    n = {s: sum(row["status"] == s for row in rows) for s in ("done", "failed", "not run")}
+    assert sum(n.values()) == 7 and n["done"] + n["failed"] >= 2
+    # The summary line counts what the records say.
+    assert f"{n['done']} measured, 0 skipped (already measured), {n['failed']} failed" in r.stdout
+    assert not [p for p in out.rglob("*") if p.name.endswith(".tmp")]
 
 
 def test_one_batch_at_a_time_per_folder(yard, tmp_path):

@@ -452,22 +452,20 @@ def _clock(seconds: float | None) -> str:
 
 
 def _jobs(text: str) -> int:
-    try:
-        n = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if n < 1:
-        raise argparse.ArgumentTypeError(f"{n}: give at least 1 worker")
-    return n
+    return _whole_number(text, 1, "give at least 1 worker")
 
 
 def _positive_int(text: str) -> int:
+    return _whole_number(text, 2, "at least 2 draws are needed")
+
+
+def _whole_number(text: str, least: int, why: str) -> int:
     try:
         n = int(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if n < 2:
-        raise argparse.ArgumentTypeError(f"{n}: at least 2 draws are needed")
+    if n < least:
+        raise argparse.ArgumentTypeError(f"{n}: {why}")
     return n
 
 
