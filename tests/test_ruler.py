@@ -175,3 +175,16 @@ def test_cli_measures_with_a_ruler_and_draws_it(tmp_path):
     bad = subprocess.run([sys.executable, "-m", "tracer", "measure", str(photo), "--ruler", "auto", "--pitch", "1mm"],
                          capture_output=True, text=True)
     assert bad.returncode == 1 and "as on an inch rule" in bad.stderr
+
+
+def test_a_batch_manifest_takes_the_ruler(tmp_path):
+    r, photo = _photo(tmp_path, _scene())
+    manifest = tmp_path / "yard.csv"
+    manifest.write_text("path,name,target,scale,known,dpi,seed,ruler,pitch\n"
+                        f"{photo.name},joist by the rule,,,,,,auto,1mm\n")
+    run = subprocess.run([sys.executable, "-m", "tracer", "batch", str(manifest), "--out", str(tmp_path / "out"),
+                          "--jobs", "1", "--report", "none"], capture_output=True, text=True)
+    assert run.returncode == 0, run.stderr
+    rows = [line for line in (tmp_path / "out" / "inventory.csv").read_text().splitlines() if not line.startswith("#")]
+    header, row = rows[0].split(","), rows[1].split(",")
+    assert row[header.index("status")] == "done" and row[header.index("scale_method")] == "ruler"

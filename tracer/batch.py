@@ -95,6 +95,9 @@ PHOTO_OPTIONS: dict[str, PhotoOption] = {
     "max_tilt": PhotoOption(_number),
     "texture": PhotoOption(_text),
     "lens": PhotoOption(_text, file=True),
+    "ruler": PhotoOption(_text, scale_reference=True),
+    "pitch": PhotoOption(_text),
+    "ruler_class": PhotoOption(_text),
 }
 
 #: The manifest's columns: ``path`` (required), ``name``, and any photo option.

@@ -573,16 +573,17 @@ def _mark_levels(R: np.ndarray, prof: np.ndarray, s: np.ndarray, k: np.ndarray, 
                  T0: float) -> tuple[int | None, int | None]:
     """Every how many ticks the longer marks fall: the first longer level and the longest.
 
-    Rows beyond the graduation band are read three at a time, outward on both sides: where only
+    Rows beyond the graduation band are read a few at a time, outward on both sides: where only
     some marks reach, those marks' spacing (in ticks) is their level's.
     """
     q_band = max(float(np.median(_contrast_at(prof, s, T0))), 1e-9)
     levels = []
+    win = max(3, (r1 - r0 + 1) // 2)
     for side in (-1, 1):
         start = r0 - 1 if side < 0 else r1 + 1
-        for off in range(0, len(R), 2):
+        for off in range(0, len(R)):
             a = start + side * off
-            rows = slice(min(a, a + side * 2), max(a, a + side * 2) + 1)
+            rows = slice(min(a, a + side * (win - 1)), max(a, a + side * (win - 1)) + 1)
             if rows.start < 0 or rows.stop > len(R):
                 break
             q = _contrast_at(R[rows].mean(axis=0), s, T0) / q_band
@@ -593,12 +594,18 @@ def _mark_levels(R: np.ndarray, prof: np.ndarray, s: np.ndarray, k: np.ndarray, 
             gaps = gaps[gaps > 0]
             if not len(gaps):
                 continue
-            m = int(np.bincount(gaps).argmax())
-            if np.mean(gaps == m) >= 0.7:                  # an even row of marks, not noise
-                levels.append(m)
-    if not levels:
+            # The level's spacing: the smallest gap that most gaps are whole multiples of (a
+            # mark missed here and there doubles a gap, it does not change the level).
+            for m in np.unique(gaps[gaps >= 2]):
+                if np.mean(gaps % m == 0) >= 0.8:
+                    levels.append(int(m))
+                    break
+    # A level counts where two or more row groups agree on it (one group's stray marks do not).
+    vals, counts = np.unique(levels, return_counts=True) if levels else (np.array([]), np.array([]))
+    seen = vals[counts >= 2]
+    if not len(seen):
         return None, None
-    return min(levels), max(levels)
+    return int(seen.min()), int(seen.max())
 
 
 def _contrast_at(prof: np.ndarray, s: np.ndarray, T0: float) -> np.ndarray:
