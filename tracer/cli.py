@@ -50,6 +50,20 @@ exit status: 0 done, 1 input readable but not measurable, 2 bad usage or unreada
 Results are for screening only, not a design check.
 """
 
+_CHECK_EPILOG = """\
+examples:
+  tracer check joist.toml --material C24 --span 3.6m --support simple --udl 1.5kN/m
+  tracer check beam.toml --material S275 --span 5m --support fixed --point 12kN --limit 360
+  tracer check beam.jpg --target 6x4:10mm --material S235 --span 2m --support cantilever --point 2kip
+  tracer check joist.toml --material my-oak.toml --span 12ft --support simple --udl 300lbf/ft --json -
+
+Self-weight (density x g x A) is added to the uniform load. Values are value ± U, U = 2u (k = 2),
+from Monte Carlo draws of the measured section; loads, E and strength are taken as given.
+Screening only, not a design check: lateral-torsional buckling, shear, bearing, connections,
+defects and durability are not checked; a qualified engineer must assess any member for reuse
+under the local building code.
+"""
+
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
@@ -119,21 +133,8 @@ def _parser() -> argparse.ArgumentParser:
                         "200 for the torsion properties)")
     m.add_argument("--random-seed", type=int, default=None, metavar="N",
                    help="seed of the Monte Carlo draws (default fixed, so reruns print the same numbers)")
-    photo = m.add_argument_group("photo options")
-    photo.add_argument("--target", metavar="CxR:SIZE",
-                       help="a printed checkerboard in the plane of the cut face: inner corners across x down, "
-                            "and the square size, e.g. 6x4:10mm")
-    photo.add_argument("--scale", metavar="X1,Y1,X2,Y2=LENGTH",
-                       help="two image points (pixels, x right, y down) a known distance apart, e.g. 120,80,1620,95=100mm")
-    photo.add_argument("--dpi", type=float, metavar="N", help="the resolution of a flatbed scan")
-    photo.add_argument("--known", metavar="depth=LENGTH|width=LENGTH",
-                       help="one caliper reading of the member: the scale alone, or a cross-check with a target")
-    photo.add_argument("--seed", metavar="X,Y", help="a pixel on the member, where several objects are in view")
-    photo.add_argument("--max-tilt", type=float, default=None, metavar="DEG",
-                       help="assumed bound of the camera's tilt to the face without a target (default 5)")
-    photo.add_argument("--texture", metavar="LENGTH",
-                       help="cracks and specks narrower than this are texture (default 2mm)")
-    photo.add_argument("--overlay", metavar="PATH.png", help="write the review picture of the trace")
+    _add_photo_options(m)
+    m.add_argument("--overlay", metavar="PATH.png", help="write the review picture of the trace")
     m.add_argument("--debug", action="store_true", help="show the traceback of an error")
     m.set_defaults(command="measure", run=_measure)
 
@@ -165,35 +166,71 @@ def _parser() -> argparse.ArgumentParser:
     t.add_argument("--paper", default="a4", choices=("a4", "letter"), help="paper, landscape (default a4)")
     t.add_argument("--debug", action="store_true", help="show the traceback of an error")
     t.set_defaults(command="target", run=_target)
+
+    c = sub.add_parser(
+        "check",
+        help="screen a measured member as a beam: moment, stress, utilisation, deflection, longest span",
+        description="Screen the member in INPUT as a single-span beam in bending, with the uncertainty of the "
+                    "measured section carried through. Screening only, not a design check.",
+        epilog=_CHECK_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    c.add_argument("input", metavar="INPUT", help="a section sheet (.toml) or a photo of the cut end")
+    c.add_argument("--material", required=True, metavar="NAME|FILE.toml",
+                   help="a shipped material (S235 S275 S355 C16 C24 D30, values from memory: check them) or a "
+                        "FILE.toml with E and strength")
+    c.add_argument("--span", required=True, metavar="LENGTH", help="the span, with its unit, e.g. 3.6m")
+    c.add_argument("--support", required=True, choices=("simple", "cantilever", "fixed"),
+                   help="simple: both ends pinned; cantilever: one end fixed; fixed: both ends fixed")
+    c.add_argument("--udl", metavar="FORCE/LENGTH", help="uniform load over the span, e.g. 5kN/m or 300lbf/ft")
+    c.add_argument("--point", metavar="FORCE", help="point load at midspan (at the tip of a cantilever), e.g. 12kN")
+    c.add_argument("--limit", type=float, default=250.0, metavar="N",
+                   help="deflection limit span/N (default 250; use your code's)")
+    c.add_argument("--axis", default="x", choices=("x", "y"),
+                   help="bending about x (loads along y, the default) or about y")
+    c.add_argument("--partial-factor", type=float, default=None, metavar="G",
+                   help="divides the strength (default: the material's, else 1)")
+    _add_assess_options(c)
+    c.set_defaults(command="check", run=_check)
     return parser
+
+
+def _add_assess_options(parser: argparse.ArgumentParser) -> None:
+    """--json, Monte Carlo settings, the photo options and --debug of compare, fit and check."""
+    parser.add_argument("--json", metavar="PATH", help="write the JSON to PATH, or to standard output with -")
+    parser.add_argument("--draws", type=_positive_int, metavar="N",
+                        help="Monte Carlo draws of the measured section")
+    parser.add_argument("--random-seed", type=int, default=None, metavar="N", help="seed of the Monte Carlo draws")
+    _add_photo_options(parser)
+    parser.add_argument("--debug", action="store_true", help="show the traceback of an error")
+
+
+def _add_photo_options(parser: argparse.ArgumentParser) -> None:
+    """The options of a photo INPUT (shared by measure, compare, fit and check)."""
+    photo = parser.add_argument_group("photo options")
+    photo.add_argument("--target", metavar="CxR:SIZE",
+                       help="a printed checkerboard in the plane of the cut face: inner corners across x down, "
+                            "and the square size, e.g. 6x4:10mm")
+    photo.add_argument("--scale", metavar="X1,Y1,X2,Y2=LENGTH",
+                       help="two image points (pixels, x right, y down) a known distance apart, e.g. 120,80,1620,95=100mm")
+    photo.add_argument("--dpi", type=float, metavar="N", help="the resolution of a flatbed scan")
+    photo.add_argument("--known", metavar="depth=LENGTH|width=LENGTH",
+                       help="one caliper reading of the member: the scale alone, or a cross-check with a target")
+    photo.add_argument("--seed", metavar="X,Y", help="a pixel on the member, where several objects are in view")
+    photo.add_argument("--max-tilt", type=float, default=None, metavar="DEG",
+                       help="assumed bound of the camera's tilt to the face without a target (default 5)")
+    photo.add_argument("--texture", metavar="LENGTH",
+                       help="cracks and specks narrower than this are texture (default 2mm)")
 
 
 def _measure(args: argparse.Namespace) -> int:
     from .errors import InputError
     from .files import write_atomic
     from .result import measure, result_json
-    from .sheet import read_sheet, sheet_text
+    from .sheet import sheet_text
     from .table import format_table
 
-    path = Path(args.input)
-    photo_opts = {k: getattr(args, k)
-                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "overlay")
-                  if getattr(args, k) is not None}
-    pm = None
-    if path.suffix.lower() == ".toml":
-        if photo_opts:
-            raise InputError(f"--{next(iter(photo_opts)).replace('_', '-')} is a photo option; {path} is a sheet")
-        measurement = read_sheet(path)
-    else:
-        from .photo.pipeline import PHOTO_SUFFIXES, measure_photo
-
-        if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
-            raise InputError(f"{path}: no such file")
-        kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture") if k in photo_opts}
-        if "max_tilt" in photo_opts:
-            kw["max_tilt"] = photo_opts["max_tilt"]
-        pm = measure_photo(path, name=getattr(args, "name", None), **kw)
-        measurement = pm.measurement
+    measurement, pm = _read_measurement(args.input, args, name=getattr(args, "name", None))
     from .uncertainty import DEFAULT_SEED
 
     seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
@@ -228,6 +265,77 @@ def _measure(args: argparse.Namespace) -> int:
         sys.stdout.write(doc_text or "")
     else:
         print(format_table(result, units=args.units, budget=args.budget, characteristic=args.characteristic))
+        for target, _ in outputs:
+            print(f"\n  wrote {target}")
+    return 0
+
+
+def _read_measurement(input_path: str, args: argparse.Namespace, *, name: str | None = None):
+    """INPUT (a sheet or a photo, with the photo options in `args`) -> (Measurement, PhotoMeasurement or None)."""
+    from .errors import InputError
+    from .sheet import read_sheet
+
+    path = Path(input_path)
+    photo_opts = {k: getattr(args, k)
+                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "overlay")
+                  if getattr(args, k, None) is not None}
+    if path.suffix.lower() == ".toml":
+        if photo_opts:
+            raise InputError(f"--{next(iter(photo_opts)).replace('_', '-')} is a photo option; {path} is a sheet")
+        return read_sheet(path), None
+    from .photo.pipeline import PHOTO_SUFFIXES, measure_photo
+
+    if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
+        raise InputError(f"{path}: no such file")
+    kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture") if k in photo_opts}
+    if "max_tilt" in photo_opts:
+        kw["max_tilt"] = photo_opts["max_tilt"]
+    pm = measure_photo(path, name=name, **kw)
+    return pm.measurement, pm
+
+
+def _check(args: argparse.Namespace) -> int:
+    from .assess import screen_capacity, screen_json
+    from .assess_table import format_screen
+    from .materials import load_material
+    from .units import parse_force, parse_length, parse_line_load
+
+    material = load_material(args.material)
+    span = parse_length(args.span, field="--span")
+    udl = parse_line_load(args.udl, field="--udl") if args.udl else 0.0
+    point = parse_force(args.point, field="--point") if args.point else 0.0
+    measurement, _ = _read_measurement(args.input, args)
+    screen = screen_capacity(measurement, material, span=span, support=args.support, udl=udl, point=point,
+                             limit=args.limit, axis=args.axis, partial_factor=args.partial_factor,
+                             **_draw_options(args, 1000))
+    return _emit(args, screen_json(screen), format_screen(screen))
+
+
+def _draw_options(args: argparse.Namespace, default: int) -> dict:
+    from .uncertainty import DEFAULT_SEED
+
+    return {"draws": args.draws or default,
+            "seed": DEFAULT_SEED if args.random_seed is None else args.random_seed}
+
+
+def _emit(args: argparse.Namespace, doc: dict, table: str, files: list[tuple[str, bytes]] = ()) -> int:
+    """Write the JSON and any other files (all computed already), then print the table or the JSON."""
+    from .errors import InputError
+    from .files import write_atomic_bytes
+
+    doc_text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
+    outputs = list(files)
+    if args.json not in (None, "-"):
+        outputs.insert(0, (args.json, doc_text.encode("utf-8")))
+    for target, _ in outputs:
+        if not Path(target).parent.is_dir():
+            raise InputError(f"{target}: its folder does not exist; create it or choose another path")
+    for target, data in outputs:
+        write_atomic_bytes(target, data)
+    if args.json == "-":
+        sys.stdout.write(doc_text)
+    else:
+        print(table)
         for target, _ in outputs:
             print(f"\n  wrote {target}")
     return 0

@@ -1,0 +1,139 @@
+"""Assessment: the capacity screen, section loss against a nominal, fits of a parametric kind."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+
+from tests.common import EN_ANGLES, EN_I_SECTIONS
+from tracer.assess import ASSESS_CAUTIONS, CHECK_KEYS, bending_stress_factor, screen_capacity, screen_json
+from tracer.materials import Material, load_material
+from tracer.measurement import Measurement
+from tracer.properties import section_properties
+from tracer.result import measure
+from tracer.shapes import angle, i_section
+from tracer.sheet import parse_sheet
+
+IPE200_SHEET = ('units = "mm"\nname = "IPE 200 as rolled"\n[uncertainty]\nreading = 0.05\n'
+                '[shape]\nkind = "i-section"\nh = 200\nb = 100\ntw = 5.6\ntf = 8.5\nr = 12\n')
+
+
+def ipe200() -> Measurement:
+    return parse_sheet(IPE200_SHEET)
+
+
+# -- the capacity screen ------------------------------------------------------------------------
+def test_symmetric_section_stress_is_moment_over_elastic_modulus():
+    p = section_properties(i_section(**EN_I_SECTIONS["IPE 200"][0]))
+    xy, _ = i_section(**EN_I_SECTIONS["IPE 200"][0]).vertices()
+    row = lambda v: np.array([v])  # noqa: E731
+    c, I_eff = bending_stress_factor(xy[None, :, 0], xy[None, :, 1], cx=row(p.cx), cy=row(p.cy), I1=row(p.I1),
+                                     I2=row(p.I2), theta=row(p.theta), axis="x")
+    # sigma = M / S for bending about an axis of symmetry (textbook); S and I of IPE 200 are
+    # 194.3 cm^3 and 1943 cm^4 (EN 10365:2017 tables, from memory).
+    assert 1 / c[0] == pytest.approx(p.Sx_top, rel=1e-12)
+    assert 1 / c[0] == pytest.approx(194.3e3, abs=0.05e3)
+    assert I_eff[0] == pytest.approx(1943e4, abs=0.5e4)
+    c_y, I_y = bending_stress_factor(xy[None, :, 0], xy[None, :, 1], cx=row(p.cx), cy=row(p.cy), I1=row(p.I1),
+                                     I2=row(p.I2), theta=row(p.theta), axis="y")
+    assert 1 / c_y[0] == pytest.approx(p.Sy_left, rel=1e-12) and I_y[0] == pytest.approx(p.Iy, rel=1e-12)
+
+
+@pytest.mark.parametrize("axis", ["x", "y"])
+def test_unsymmetric_bending_matches_the_xy_formula(axis):
+    # The unsymmetric bending formula in the x, y axes (Gere & Goodno, Mechanics of Materials,
+    # 8th ed., sec. 6.5, and Boresi & Schmidt, Advanced Mechanics of Materials, 6th ed., ch. 7;
+    # from memory): sigma = [(My Ix + Mx Ixy) x' - (Mx Iy + My Ixy) y'] / (Ix Iy - Ixy^2) up to the
+    # sign convention, and the curvature's size |I^-1 M| / E; checked on an L 100x100x10 angle.
+    sec = angle(**EN_ANGLES["L 100x100x10"][0])
+    p = section_properties(sec)
+    xy, _ = sec.vertices()
+    Mx, My = (1.0, 0.0) if axis == "x" else (0.0, 1.0)
+    xs, ys = xy[:, 0] - p.cx, xy[:, 1] - p.cy
+    det = p.Ix * p.Iy - p.Ixy**2
+    sigma = ((My * p.Ix + Mx * p.Ixy) * xs - (Mx * p.Iy + My * p.Ixy) * ys) / det
+    row = lambda v: np.array([v])  # noqa: E731
+    c, I_eff = bending_stress_factor(xy[None, :, 0], xy[None, :, 1], cx=row(p.cx), cy=row(p.cy), I1=row(p.I1),
+                                     I2=row(p.I2), theta=row(p.theta), axis=axis)
+    assert c[0] == pytest.approx(np.max(np.abs(sigma)), rel=1e-9)
+    K = np.array([[p.Ix, -p.Ixy], [-p.Ixy, p.Iy]])
+    assert I_eff[0] == pytest.approx(1 / np.linalg.norm(np.linalg.solve(K, [Mx, My])), rel=1e-9)
+    # The angle is weaker in biaxial bending than the symmetric formula M/Sx would say.
+    assert c[0] > 1 / min(p.Sx_top, p.Sx_bot)
+
+
+def test_screen_of_a_steel_beam_by_hand():
+    m = ipe200()
+    s355 = load_material("S355")
+    s = screen_capacity(m, s355, span=5000.0, support="simple", udl=10.0, point=20e3, limit=250, draws=300)
+    p = section_properties(m.section)
+    w = 10.0 + 7850 * 9.80665 * p.A * 1e-9                    # self-weight from density x g x A
+    # IPE 200 weighs 22.4 kg/m (EN 10365:2017, from memory): 0.2197 kN/m.
+    assert s.values["self_weight"] == pytest.approx(22.4 * 9.80665e-3, rel=0.002)
+    M = w * 5000**2 / 8 + 20e3 * 5000 / 4                       # textbook, as in test_beams
+    assert s.values["max_moment"] == pytest.approx(M, rel=1e-12)
+    assert s.values["stress"] == pytest.approx(M / p.Sx_top, rel=1e-9)
+    assert s.values["utilisation"] == pytest.approx(M / p.Sx_top / 355, rel=1e-9)
+    d = 5 * w * 5000**4 / (384 * 210e3 * p.Ix) + 20e3 * 5000**3 / (48 * 210e3 * p.Ix)
+    assert s.values["deflection"] == pytest.approx(d, rel=1e-9)
+    assert s.values["deflection_limit"] == 20.0
+    # At the longest span the binding condition is exactly met.
+    at = screen_capacity(m, s355, span=s.values["max_span"], support="simple", udl=10.0, point=20e3, limit=250,
+                         draws=2)
+    ratio = max(at.values["utilisation"], at.values["deflection"] / at.values["deflection_limit"])
+    assert ratio == pytest.approx(1.0, rel=1e-9)
+
+
+def test_screen_uncertainty_follows_the_modulus():
+    # Utilisation ~ 1 / Sx_top (the self-weight is 2 % of the load): its relative u must match the
+    # relative u of Sx_top from the result's own (linear) propagation.
+    m = ipe200()
+    s = screen_capacity(m, load_material("S235"), span=4000.0, support="fixed", udl=10.0, draws=2000)
+    r = measure(m)
+    rel_S = r.u["Sx_top"] / r.values()["Sx_top"]
+    assert s.u["utilisation"] / s.values["utilisation"] == pytest.approx(rel_S, rel=0.15)
+    assert s.values["utilisation_p95"] > s.values["utilisation"]
+    assert 0 < s.u["utilisation_p95"] < s.u["utilisation"]
+    doc = screen_json(s)
+    for key in CHECK_KEYS:
+        assert set(doc[key]) == {"value", "u", "unit"}, key
+    assert doc["cautions"] == list(ASSESS_CAUTIONS) and doc["schema"] == "tracer/check/1"
+
+
+def test_orientation_advice_for_a_joist_on_its_side():
+    m = parse_sheet('units = "mm"\n[shape]\nkind = "rectangle"\nb = 195\nh = 47\n')
+    s = screen_capacity(m, load_material("C24"), span=3000.0, support="simple", udl=1.0)
+    # A b x h rectangle: Ix / Iy = (h / b)^2 and Sx / Sy = h / b (textbook).
+    assert s.orientation["Ix_over_Iy"] == pytest.approx((47 / 195) ** 2, rel=1e-9)
+    assert s.orientation["Sx_over_Sy"] == pytest.approx(47 / 195, rel=1e-9)
+    assert s.orientation["strong_axis"] == "y" and "quarter turn" in s.orientation["advice"]
+    assert any("weaker axis" in w for w in s.warnings)
+    assert any("no u is given" in w for w in s.warnings)
+
+
+def test_screen_refuses_bad_input():
+    m = ipe200()
+    no_density = Material(name="oak", E=10000.0, strength=30.0)
+    with pytest.raises(ValueError, match="no load: give --udl or --point"):
+        screen_capacity(m, no_density, span=3000.0, support="simple")
+    with pytest.raises(ValueError, match="--support 'pinned'"):
+        screen_capacity(m, no_density, span=3000.0, support="pinned", udl=1.0)
+    with pytest.raises(ValueError, match="partial-factor"):
+        screen_capacity(m, no_density, span=3000.0, support="simple", udl=1.0, partial_factor=0.5)
+
+
+def test_materials_file(tmp_path):
+    f = tmp_path / "oak.toml"
+    f.write_text('name = "old oak"\nE = "10000MPa"\nstrength = "3ksi"\ndensity = "45lb/ft3"\n')
+    mat = load_material(str(f))
+    assert mat.name == "old oak" and mat.E == 10000.0
+    assert mat.strength == pytest.approx(3000 * 4.4482216152605 / 25.4**2, rel=1e-12)   # 1 psi = 1 lbf/in^2
+    assert mat.density == pytest.approx(45 * 0.45359237 / 0.3048**3, rel=1e-12)
+    f.write_text('E = 10000\nstrength = "30MPa"\n')
+    with pytest.raises(ValueError, match="E = 10000 needs its unit"):
+        load_material(str(f))
+    with pytest.raises(ValueError, match="'C99' is not a shipped material"):
+        load_material("C99")
