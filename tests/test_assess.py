@@ -137,3 +137,82 @@ def test_materials_file(tmp_path):
         load_material(str(f))
     with pytest.raises(ValueError, match="'C99' is not a shipped material"):
         load_material("C99")
+
+
+# -- section loss against a nominal -----------------------------------------------------------------
+def corroded_ipe200(loss_top: float, *, turn: float = 33.0, mirror: bool = False, reading: float = 0.05):
+    """IPE 200 whose top flange lost `loss_top` mm off its outer face, moved and turned."""
+    import shapely
+
+    from tracer.geometry import Section
+    from tracer.sheet import sheet_text
+
+    g = i_section(**EN_I_SECTIONS["IPE 200"][0]).to_shapely().difference(
+        shapely.box(-1, 200 - loss_top, 101, 201))
+    sec = Section.from_shapely(g)
+    if mirror:
+        sec = sec.mirrored("y")
+    sec = sec.rotated(turn).translated(250.0, -40.0)
+    return parse_sheet(sheet_text(sec, name="corroded IPE 200 (invented example)", units="mm",
+                                  uncertainty={"reading": reading}))
+
+
+NOMINAL_IPE200 = "i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm"
+
+
+@pytest.mark.parametrize("mirror", [False, True])
+def test_loss_of_a_thinned_flange(mirror):
+    from tracer.assess import compare_json, compare_sections, nominal_input
+
+    c = compare_sections(corroded_ipe200(1.5, mirror=mirror), nominal_input(NOMINAL_IPE200), draws=200,
+                         torsion_draws=20)
+    nom = section_properties(i_section(**EN_I_SECTIONS["IPE 200"][0]))
+    # Closed form: a 1.5 mm layer off a 100 mm wide flange face is 150 mm^2 of A; about the
+    # nominal centroid its second moment is b t^3/12 + b t (h/2 - t/2)^2 (parallel axes), and the
+    # remaining section's centroid drops by 150 (h/2 - t/2) / (A - 150).
+    b, t, h = 100.0, 1.5, 200.0
+    d = h / 2 - t / 2
+    A = nom.A - b * t
+    Ix = nom.Ix - (b * t**3 / 12 + b * t * d**2) - A * (b * t * d / A) ** 2
+    assert c.loss["A"] == pytest.approx(100 * b * t / nom.A, abs=1e-6)
+    assert c.loss["Ix"] == pytest.approx(100 * (nom.Ix - Ix) / nom.Ix, abs=1e-5)
+    # (an I-section's mirror image is itself turned, so either registration is right)
+    assert c.registration.overlap == pytest.approx(A / nom.A, abs=1e-7)
+    assert c.missing_area == pytest.approx(b * t, rel=1e-6) and c.extra_area < 1e-3
+    plates = {p["name"]: p for p in c.plates}
+    # The thinned flange may land on top or below: both fits are equally good.
+    thin, full = sorted((plates["top flange"], plates["bottom flange"]), key=lambda p: p["thinnest"])
+    assert thin["thinnest"] == pytest.approx(8.5 - 1.5, abs=1e-6) and full["thinnest"] == pytest.approx(8.5, abs=1e-6)
+    assert thin["status"] == "loss beyond rolling tolerance"   # 7.0 < 8.5 - 1.0 (EN 10034:1993, from memory)
+    assert plates["web"]["status"] == "within rolling tolerance"
+    assert 0 < c.loss_u["A"] < 1.0
+    doc = compare_json(c)
+    assert list(doc["loss"]) == ["A", "Ix", "Iy", "Sx_top", "Zx", "J"]
+    assert all(set(v) == {"value", "u", "unit"} and v["unit"] == "%" for v in doc["loss"].values())
+    assert doc["cautions"] == list(ASSESS_CAUTIONS)
+
+
+def test_thinning_within_rolling_tolerance_is_not_loss():
+    from tracer.assess import compare_sections, nominal_input
+
+    # A flange 0.4 mm thin is inside the -1.0 mm band of EN 10034:1993 for tf = 8.5 mm (from memory).
+    c = compare_sections(corroded_ipe200(0.4, reading=0.01), nominal_input(NOMINAL_IPE200), draws=100,
+                         torsion_draws=10)
+    top = min((p for p in c.plates if "flange" in p["name"]), key=lambda p: p["thinnest"])
+    assert top["thinnest"] == pytest.approx(8.1, abs=1e-6) and top["status"] == "within rolling tolerance"
+
+
+def test_plate_thickness_against_shapely():
+    from shapely import intersection, length, linestrings
+
+    from tracer.plates import plate_elements, plate_thickness
+    from tracer.shapes import make_shape
+
+    for kind, dims in [("channel", dict(h=200, b=75, tw=8.5, tf=11.5, r=12)), ("tube", dict(d=168.3, t=8.0)),
+                       ("box", dict(h=200, b=100, t=8, ro=12, ri=8))]:
+        sec = make_shape(kind, **dims)
+        xy, starts = sec.vertices()
+        for p in plate_elements(kind, dims):
+            ref = length(intersection(linestrings(p.cuts), sec.to_shapely()))     # shapely as reference
+            np.testing.assert_allclose(plate_thickness(xy, starts, p), ref, atol=1e-9)
+            np.testing.assert_allclose(ref, p.thickness, atol=1e-3)

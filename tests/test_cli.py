@@ -230,3 +230,29 @@ def test_check_bad_input_exits_2_with_a_message(tmp_path, extra, message):
     r = run(*base, *extra)
     assert r.returncode == 2
     assert message in r.stderr and len(r.stderr.strip().splitlines()) <= 2
+
+
+def test_compare_table_json_and_figure(tmp_path):
+    sheet = write(tmp_path, "ipe.toml", IPE200_U.replace("tf = 8.5", "tf = 7.0"))   # both flanges thinned
+    fig = tmp_path / "loss.svg"
+    out = tmp_path / "loss.json"
+    r = run("compare", str(sheet), "i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm", "--figure", str(fig),
+            "--json", str(out), "--draws", "100", "--torsion-draws", "10")
+    assert r.returncode == 0, r.stderr
+    assert "loss beyond rolling tolerance" in r.stdout and "not a design check" in r.stdout
+    doc = json.loads(out.read_text())
+    assert list(doc["loss"]) == ["A", "Ix", "Iy", "Sx_top", "Zx", "J"]
+    # Two flanges 1.5 mm thinner over b - tw = 94.4 mm of their width each (outside the web):
+    # 2 x 1.5 x 94.4 = 283.2 mm^2 of A = 2848.4 mm^2 (IPE 200, EN 10365, from memory) is 9.94 %.
+    assert doc["loss"]["A"]["value"] == pytest.approx(100 * 283.2 / 2848.4, abs=0.01)
+    assert doc["loss"]["A"]["u"] > 0 and doc["schema"] == "tracer/compare/1" and doc["cautions"]
+    text = fig.read_text()
+    assert text.startswith("<?xml") and "qualified engineer" in text
+
+
+def test_compare_bad_nominal_exits_2(tmp_path):
+    sheet = write(tmp_path, "ipe.toml", IPE200_U)
+    r = run("compare", str(sheet), "i-section:h=200,b=100,tw=5.6,tf=8.5")
+    assert r.returncode == 2 and "nominal h = '200' is not a length with a unit" in r.stderr
+    r = run("compare", str(sheet), "girder:h=200mm")
+    assert r.returncode == 2 and "KIND:DIM=LENGTH" in r.stderr

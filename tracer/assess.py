@@ -43,7 +43,17 @@ __all__ = [
     "orientation_advice",
     "quantity",
     "section_draws",
+    "percentile_with_u",
+    "LOSS_KEYS",
+    "Comparison",
+    "compare_sections",
+    "compare_json",
+    "nominal_input",
+    "shape_of",
 ]
+
+#: The properties whose loss ``tracer compare`` reports (the fixed keys of its JSON ``loss``).
+LOSS_KEYS = ("A", "Ix", "Iy", "Sx_top", "Zx", "J")
 
 #: Fixed text shown with every table, JSON and figure of the assessment commands (DESIGN.md, cautions).
 ASSESS_CAUTIONS: tuple[str, ...] = (
@@ -373,6 +383,239 @@ def percentile_with_u(samples: np.ndarray, q: float) -> tuple[float, float]:
     d = 100.0 * math.sqrt(p * (1 - p) / max(len(s), 1))
     lo, mid, hi = np.percentile(s, [max(q - d, 0.0), q, min(q + d, 100.0)])
     return float(mid), float(0.5 * (hi - lo))
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """A measured section against its nominal.
+
+    Attributes
+    ----------
+    measurement, nominal : Measurement
+    registration : Registration
+        The measured section laid onto the nominal (:func:`tracer.register.register`).
+    nominal_values, measured_values : dict
+        A, Ix, Iy, Sx_top, Zx, J of each, in the nominal's axes [mm units].
+    measured_u : dict
+        u of the measured values (empty without an error model).
+    loss, loss_u : dict
+        (nominal - measured) / nominal [%] of each key of :data:`LOSS_KEYS`, positive = lost; u [%].
+    missing_area, extra_area : float
+        Area of the nominal that the measured section lacks, and of measured material outside
+        the nominal [mm^2].
+    plates : list of dict
+        Per plate element: name, dim, nominal, thinnest and mean measured thickness, the largest
+        local loss [mm, %], their u, the tolerance and the verdict.
+    warnings : tuple of str
+    """
+
+    measurement: Measurement
+    nominal: Measurement
+    registration: Any
+    nominal_values: dict[str, float]
+    measured_values: dict[str, float]
+    measured_u: dict[str, float]
+    loss: dict[str, float]
+    loss_u: dict[str, float]
+    missing_area: float
+    extra_area: float
+    plates: list[dict[str, Any]]
+    tolerance_source: str
+    draws: int
+    seed: int
+    warnings: tuple[str, ...] = ()
+
+
+def compare_sections(measurement: Measurement, nominal: Measurement, *, tolerances: dict | None = None,
+                     draws: int = 1000, torsion_draws: int = 100, seed: int = DEFAULT_SEED) -> Comparison:
+    """Register a measured section onto its nominal and report what it has lost.
+
+    Parameters
+    ----------
+    measurement : Measurement
+        The measured section (sheet or photo) and its error model.
+    nominal : Measurement
+        The nominal section, exact (a sheet or a parametric shape); plate elements and rolling
+        tolerances need a parametric one.
+    tolerances : dict, optional
+        A tolerance table (:func:`tracer.tolerances.load_tolerances`); the shipped one by default.
+    draws : int
+        Monte Carlo draws for the u of A, Ix, Iy, Sx_top, Zx and of the plate thicknesses
+        (at most 200 of them for the thicknesses).
+    torsion_draws : int
+        Monte Carlo draws for the u of J (each is a finite-element solve).
+    seed : int
+
+    Returns
+    -------
+    Comparison
+
+    Notes
+    -----
+    Losses are of the measured section in the nominal's axes, after registration; the nominal is
+    exact, so u(loss) = 100 u(measured) / nominal. A plate's largest local loss is the nominal
+    thickness less the thinnest of its stations (:mod:`tracer.plates`); where that thinnest
+    reading lies within the rolling tolerance of the nominal it is reported as within
+    tolerance, not as loss.
+    """
+    from .plates import plate_elements, plate_thickness
+    from .register import register, transform_vertices
+    from .tolerances import load_tolerances, tolerance_of
+    from .torsion import evaluate_torsion, torsion_properties
+
+    table = tolerances if tolerances is not None else load_tolerances()
+    warnings: list[str] = list(measurement.warnings)
+    reg = register(measurement.section, nominal.section)
+    if reg.overlap < 0.5:
+        warnings.append(f"the measured section covers only {100 * reg.overlap:.0f} % of the nominal after the best "
+                        "fit: is it the right nominal?")
+    pn = section_properties(nominal.section)
+    pm = section_properties(reg.section)
+    keys = LOSS_KEYS[:-1]
+    nominal_values = {k: pn.values()[k] for k in keys}
+    measured_values = {k: pm.values()[k] for k in keys}
+    t_nom_section = (nominal.mc_proxy or (nominal.section, None))[0]
+    nominal_values["J"] = torsion_properties(t_nom_section).J
+    t_sec, t_model = measurement.mc_proxy or (measurement.section, measurement.error_model)
+    tor, tor_u = evaluate_torsion(t_sec, t_model if measurement.error_model else None, draws=torsion_draws,
+                                  seed=seed)
+    measured_values["J"] = tor.J
+    u: dict[str, float] = {}
+    shape = shape_of(nominal)
+    plates = plate_elements(*shape) if shape is not None else []
+    xy_reg, starts = reg.section.vertices()
+    base_t = [plate_thickness(xy_reg, starts, p) for p in plates]
+    drawn_t: list[np.ndarray] = [np.empty((0, 0)) for _ in plates]
+    if measurement.error_model:
+        from .ensemble import ensemble_properties
+
+        sec, x, y, _, _ = section_draws(measurement, draws=draws, seed=seed)
+        sec_reg = sec.transformed(reg.matrix, reg.offset)
+        X, Y = transform_vertices(sec, x, y, reg)
+        ref_p = section_properties(sec_reg)
+        reg_rows = dict(zip(PROPERTY_KEYS, ensemble_properties(sec_reg, X, Y, base=ref_p)))
+        ref = ref_p.values()
+        for k in keys:
+            with np.errstate(invalid="ignore"):
+                u[k] = float(np.sqrt(np.nanmean((reg_rows[k] - ref[k]) ** 2)))
+        u["J"] = tor_u.u["J"]
+        xy_s, starts_s = sec_reg.vertices()
+        for i, p in enumerate(plates):
+            own = plate_thickness(xy_s, starts_s, p)
+            # each draw's change of thickness, station by station
+            drawn_t[i] = np.array([plate_thickness(np.column_stack([X[d], Y[d]]), starts_s, p) - own
+                                   for d in range(min(draws, 200))])
+    else:
+        warnings.append("no uncertainty was stated for the measurement: no u is given")
+    loss = {k: 100.0 * (nominal_values[k] - measured_values[k]) / nominal_values[k] for k in LOSS_KEYS}
+    loss_u = {k: 100.0 * u[k] / abs(nominal_values[k]) for k in u}
+    plate_rows = []
+    for i, p in enumerate(plates):
+        t = base_t[i]
+        j = int(np.argmin(t))
+        row: dict[str, Any] = {"name": p.name, "dim": p.dim, "nominal": p.thickness, "thinnest": float(t[j]),
+                               "mean": float(np.mean(t)), "local_loss": p.thickness - float(t[j]),
+                               "local_loss_percent": 100.0 * (p.thickness - float(t[j])) / p.thickness,
+                               "stations": len(t)}
+        if drawn_t[i].size:
+            dt = drawn_t[i]
+            row["u"] = float(np.sqrt(np.mean((dt[:, j]) ** 2)))
+            row["mean_u"] = float(np.std(np.mean(dt, axis=1)))
+        tol = tolerance_of(table, shape[0], p.dim, p.thickness)
+        if tol is not None:
+            row["tolerance"] = {"minus": tol.minus, "plus": tol.plus, "source": tol.source}
+            row["status"] = {"within": "within rolling tolerance", "below": "loss beyond rolling tolerance",
+                             "above": "thicker than the rolling tolerance",
+                             "undecided": "cannot tell: the uncertainty crosses the tolerance limit"}[
+                tol.status(p.thickness, row["thinnest"], row.get("u"))]
+        else:
+            row["status"] = "loss" if row["local_loss"] > 0 else "no loss"
+            warnings.append(f"no rolling tolerance for {p.dim} of {article_kind(shape[0])}: {p.name} is judged "
+                            "against the nominal alone")
+        plate_rows.append(row)
+    if shape is None:
+        warnings.append("the nominal is not a parametric shape: no plate elements and no rolling tolerances")
+    nom_geom = nominal.section.to_shapely()
+    geom = reg.section.to_shapely()
+    return Comparison(measurement=measurement, nominal=nominal, registration=reg, nominal_values=nominal_values,
+                      measured_values=measured_values, measured_u=u, loss=loss, loss_u=loss_u,
+                      missing_area=float(nom_geom.difference(geom).area),
+                      extra_area=float(geom.difference(nom_geom).area), plates=plate_rows,
+                      tolerance_source=table.get(shape[0], {}).get("standard", "") if shape else "",
+                      draws=draws if u else 0, seed=seed, warnings=tuple(warnings))
+
+
+def compare_json(c: Comparison) -> dict[str, Any]:
+    """The comparison as a ``tracer/compare/1`` JSON document; ``loss`` maps each key of
+    :data:`LOSS_KEYS` to ``{value, u, unit: "%"}`` (positive = material lost)."""
+    from .units import property_unit
+
+    doc = _head("tracer/compare/1", c.measurement)
+    doc["nominal"] = {"name": c.nominal.name, "source": dict(c.nominal.source)}
+    doc["units"] = {"length": "mm"}
+    r = c.registration
+    doc["registration"] = {"rotation_deg": r.angle, "mirrored": r.mirrored,
+                           "offset": {"x": float(r.offset[0]), "y": float(r.offset[1])},
+                           "overlap": r.overlap,
+                           "method": "centroids and principal axes aligned, then the shared area maximised"}
+    doc["loss"] = {k: quantity(c.loss[k], c.loss_u.get(k), "%") for k in LOSS_KEYS}
+    doc["properties"] = {k: {"nominal": c.nominal_values[k],
+                             "measured": quantity(c.measured_values[k], c.measured_u.get(k), property_unit(k, "mm"))}
+                         for k in LOSS_KEYS}
+    doc["areas"] = {"missing": quantity(c.missing_area, None, "mm^2"), "extra": quantity(c.extra_area, None, "mm^2")}
+    doc["plates"] = c.plates
+    doc["uncertainty"] = {"k": 1, "draws": c.draws or None, "seed": c.seed,
+                          "covers": "the measured section's error model; the nominal is exact"}
+    doc["warnings"] = list(c.warnings)
+    doc["cautions"] = list(ASSESS_CAUTIONS)
+    return doc
+
+
+def nominal_input(spec: str) -> Measurement:
+    """A nominal section: a sheet (``.toml``) or a parametric shape written
+    ``KIND:DIM=LENGTH,...``, e.g. ``i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm``.
+
+    >>> nominal_input("tube:d=168.3mm,t=8mm").source["shape"]
+    {'kind': 'tube', 'd': 168.3, 't': 8.0}
+    """
+    from .shapes import SHAPE_KINDS, make_shape
+    from .units import parse_length
+
+    if spec.lower().endswith(".toml"):
+        from .sheet import read_sheet
+
+        return read_sheet(spec)
+    kind, sep, rest = spec.partition(":")
+    if not sep or kind not in SHAPE_KINDS:
+        raise InputError(f"nominal {spec!r}: give a sheet (.toml) or KIND:DIM=LENGTH,... with KIND one of "
+                         f"{', '.join(SHAPE_KINDS)}, e.g. i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm")
+    dims: dict[str, float] = {}
+    for item in filter(None, rest.split(",")):
+        key, eq, value = item.partition("=")
+        if not eq:
+            raise InputError(f"nominal {spec!r}: {item!r} must be DIM=LENGTH, e.g. h=200mm")
+        dims[key.strip()] = parse_length(value, field=f"nominal {key.strip()}")
+    section = make_shape(kind, **dims)
+    return Measurement(section=section, name=spec, source={"kind": "shape", "shape": {"kind": kind, **dims}},
+                       mc_proxy=(make_shape(kind, chord_angle=0.05, **dims), None) if kind != "rectangle" else None)
+
+
+def shape_of(m: Measurement) -> tuple[str, dict[str, float]] | None:
+    """(kind, dimensions [mm]) of a measurement made from a parametric shape, else None."""
+    from .units import LENGTH_UNITS
+
+    rec = m.source.get("shape")
+    if not rec:
+        return None
+    f = LENGTH_UNITS.get(m.source.get("sheet_units", "mm"), 1.0)
+    dims = {k: float(v) * f for k, v in rec.items() if k != "kind" and isinstance(v, (int, float))}
+    return rec["kind"], dims
+
+
+def article_kind(kind: str) -> str:
+    from .shapes import article
+
+    return f"{article(kind)} {kind}"
 
 
 # ---------------------------------------------------------------------------------------------

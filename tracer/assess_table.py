@@ -8,11 +8,11 @@ from __future__ import annotations
 
 import math
 
-from .assess import ASSESS_CAUTIONS, CHECK_KEYS, CHECK_UNITS, Screen
+from .assess import ASSESS_CAUTIONS, CHECK_KEYS, CHECK_UNITS, LOSS_KEYS, Comparison, Screen
 from .beams import SUPPORTS
 from .table import _columns, format_measured, format_value
 
-__all__ = ["format_screen", "cell", "caution_lines"]
+__all__ = ["format_screen", "format_comparison", "cell", "caution_lines"]
 
 _CHECK_MEANINGS = {
     "max_moment": "largest bending moment, self-weight included",
@@ -46,6 +46,40 @@ def format_screen(screen: Screen) -> str:
     lines = head + [""] + _columns(rows, right={1}) + [""]
     lines.append(f"  orientation: Ix/Iy = {o['Ix_over_Iy']:.3g}, Sx/Sy = {o['Sx_over_Sy']:.3g}; {o['advice']}")
     lines += warning_lines(screen.warnings)
+    return "\n".join(lines + caution_lines())
+
+
+def format_comparison(c: Comparison) -> str:
+    """Section loss against the nominal: properties, plate elements, registration, cautions."""
+    from .units import property_unit
+
+    r = c.registration
+    head = [f"{c.measurement.name} against nominal {c.nominal.name}",
+            f"  registered: turned {r.angle:.4g} deg" + (" after a mirror" if r.mirrored else "")
+            + f"; shares {100 * r.overlap:.2f} % of the nominal area",
+            f"  missing {format_value(c.missing_area)} mm^2 of the nominal, extra {format_value(c.extra_area)} mm^2 "
+            "outside it"]
+    if c.measured_u:
+        head.append(f"  values ± U: U = 2u (k = 2); Monte Carlo {c.draws} draws of the measured section; the nominal "
+                    "is exact")
+    rows = [["property", "nominal", "measured ± U" if c.measured_u else "measured", "unit", "loss ± U"]]
+    for k in LOSS_KEYS:
+        rows.append([k, format_value(c.nominal_values[k]), cell(c.measured_values[k], c.measured_u.get(k)),
+                     property_unit(k, "mm"), cell(c.loss[k], c.loss_u.get(k)) + " %"])
+    lines = head + [""] + _columns(rows, right={1, 2, 4}) + ["", "  loss = (nominal - measured) / nominal: positive = "
+                                                             "material lost"]
+    if c.plates:
+        lines += ["", "  plate elements: the thinnest of each element's stations against its nominal thickness"]
+        prow = [["element", "nominal", "thinnest ± U", "mean", "local loss", "tolerance", "verdict"]]
+        for p in c.plates:
+            tol = p.get("tolerance")
+            prow.append([f"{p['name']} ({p['dim']})", f"{p['nominal']:.4g} mm", cell(p["thinnest"], p.get("u")) + " mm",
+                         f"{p['mean']:.2f} mm", f"{p['local_loss'] + 0.0:.2f} mm ({p['local_loss_percent'] + 0.0:.1f} %)",
+                         f"-{tol['minus']:.3g}/+{tol['plus']:.3g} mm" if tol else "none", p["status"]])
+        lines += _columns(prow, right={1, 2, 3, 4})
+        if c.tolerance_source:
+            lines.append(f"  rolling tolerances: {c.tolerance_source}")
+    lines += warning_lines(c.warnings)
     return "\n".join(lines + caution_lines())
 
 
