@@ -216,3 +216,65 @@ def test_plate_thickness_against_shapely():
             ref = length(intersection(linestrings(p.cuts), sec.to_shapely()))     # shapely as reference
             np.testing.assert_allclose(plate_thickness(xy, starts, p), ref, atol=1e-9)
             np.testing.assert_allclose(ref, p.thickness, atol=1e-3)
+
+
+# -- fit to a parametric kind -------------------------------------------------------------------
+def perturbed_outline(kind: str, dims: dict, *, noise: float, seed: int, turn: float = 27.0) -> Measurement:
+    """A known shape, turned and moved, every vertex moved by normal noise of `noise` mm, as an
+    outline sheet that states that reading uncertainty."""
+    from tracer.geometry import Section
+    from tracer.shapes import make_shape
+    from tracer.sheet import sheet_text
+
+    rng = np.random.default_rng(seed)
+    xy, _ = make_shape(kind, chord_angle=0.05, **dims).rotated(turn).translated(30.0, -12.0).vertices()
+    noisy = Section(xy + rng.normal(0.0, noise, xy.shape))
+    return parse_sheet(sheet_text(noisy, name=f"traced {kind} (invented example)", units="mm",
+                                  uncertainty={"reading": noise}))
+
+
+FIT_CASES = [
+    ("i-section", EN_I_SECTIONS["IPE 200"][0]),                 # EN 10365 dimensions (from memory)
+    ("channel", dict(h=200, b=75, tw=8.5, tf=11.5, r=12)),        # a UPN 200 (EN 10279 dimensions, from memory)
+    ("angle", dict(h=150, b=90, t=10, r=12, rt=6)),               # L 150x90x10 (EN 10056-1, from memory)
+    ("box", dict(h=200, b=100, t=8, ro=12, ri=8)),                # RHS 200x100x8 (EN 10210-2, from memory)
+    ("tube", dict(d=168.3, t=8.0)),                               # CHS 168.3x8 (EN 10210-2, from memory)
+]
+
+
+@pytest.mark.parametrize("kind,dims", FIT_CASES, ids=[c[0] for c in FIT_CASES])
+def test_fit_recovers_known_dimensions_within_U(kind, dims):
+    from tracer.fit import fit_shape
+
+    f = fit_shape(perturbed_outline(kind, dims, noise=0.03, seed=7), kind, draws=60)
+    for key, true in dims.items():
+        assert abs(f.dims[key] - true) <= 2 * f.u[key], (key, f.dims[key], true, f.u[key])   # k = 2
+        assert f.u[key] < 0.2, key                    # and u is not so wide that any answer passes
+    if kind != "tube":                                # a tube fits at any turn
+        assert f.angle == pytest.approx(-27.0, abs=0.1) and f.mirrored is False
+
+
+def test_fit_is_robust_to_a_pit_and_judges_tolerance():
+    import shapely
+
+    from tracer.fit import fit_shape
+    from tracer.geometry import Section
+    from tracer.sheet import sheet_text
+
+    # A channel with a 3 mm deep corrosion pit, 20 mm long, in its web's outer face.
+    dims = dict(h=200, b=75, tw=8.5, tf=11.5, r=12)
+    from tracer.shapes import channel
+
+    pitted = channel(**dims, chord_angle=0.05).to_shapely().difference(shapely.box(-1, 90, 3, 110))
+    m = parse_sheet(sheet_text(Section.from_shapely(pitted), name="pitted channel (invented example)", units="mm",
+                               uncertainty={"reading": 0.02}))
+    f = fit_shape(m, "channel", nominal=dims, draws=30)
+    # the pit is an outlier, not a thinner web: the web stays within 0.1 mm of 8.5
+    assert f.dims["tw"] == pytest.approx(8.5, abs=0.1) and f.outliers > 0.01
+    assert f.tolerance["tw"]["status"] == "within"           # EN 10279 band +-0.5 mm (from memory)
+    from tracer.assess import fit_json
+
+    doc = fit_json(f, m)
+    assert doc["kind"] == "channel" and set(doc["dims"]) == set(dims)
+    assert all(set(v) == {"value", "u", "unit"} and v["unit"] == "mm" for v in doc["dims"].values())
+    assert doc["cautions"] == list(ASSESS_CAUTIONS)

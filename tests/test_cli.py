@@ -256,3 +256,19 @@ def test_compare_bad_nominal_exits_2(tmp_path):
     assert r.returncode == 2 and "nominal h = '200' is not a length with a unit" in r.stderr
     r = run("compare", str(sheet), "girder:h=200mm")
     assert r.returncode == 2 and "KIND:DIM=LENGTH" in r.stderr
+
+
+def test_fit_json_keys_and_bad_kind(tmp_path):
+    sheet = write(tmp_path, "ipe.toml", IPE200_U)
+    r = run("fit", str(sheet), "--kind", "i-section", "--json", "-", "--draws", "20",
+            "--nominal", "i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm")
+    assert r.returncode == 0, r.stderr
+    doc = json.loads(r.stdout)
+    assert doc["schema"] == "tracer/fit/1" and doc["kind"] == "i-section"
+    assert list(doc["dims"]) == ["h", "b", "tw", "tf", "r"]
+    assert doc["dims"]["tw"]["value"] == pytest.approx(5.6, abs=0.01) and doc["dims"]["tw"]["unit"] == "mm"
+    assert doc["tolerance"]["dims"]["tw"]["status"] == "within"
+    r = run("fit", str(sheet), "--kind", "girder")
+    assert r.returncode == 2 and "invalid choice: 'girder'" in r.stderr
+    r = run("fit", str(sheet), "--kind", "channel", "--nominal", "i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm")
+    assert r.returncode == 2 and "give a channel" in r.stderr

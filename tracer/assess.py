@@ -50,6 +50,7 @@ __all__ = [
     "compare_json",
     "nominal_input",
     "shape_of",
+    "fit_json",
 ]
 
 #: The properties whose loss ``tracer compare`` reports (the fixed keys of its JSON ``loss``).
@@ -567,6 +568,26 @@ def compare_json(c: Comparison) -> dict[str, Any]:
     doc["uncertainty"] = {"k": 1, "draws": c.draws or None, "seed": c.seed,
                           "covers": "the measured section's error model; the nominal is exact"}
     doc["warnings"] = list(c.warnings)
+    doc["cautions"] = list(ASSESS_CAUTIONS)
+    return doc
+
+
+def fit_json(f, measurement: Measurement) -> dict[str, Any]:
+    """A :class:`tracer.fit.ShapeFit` as a ``tracer/fit/1`` JSON document: ``kind``, and ``dims``
+    mapping each dimension to ``{value, u, unit}``."""
+    doc = _head("tracer/fit/1", measurement)
+    doc["kind"] = f.kind
+    doc["dims"] = {k: quantity(v, f.u.get(k), "mm") for k, v in f.dims.items()}
+    doc["pose"] = {"rotation_deg": f.angle, "mirrored": f.mirrored, "offset": {"x": f.offset[0], "y": f.offset[1]},
+                   "meaning": "measured points p map into the shape's frame as R(rotation) (mirror) p + offset"}
+    doc["residuals"] = {"robust_rms": quantity(f.residual_rms, None, "mm"), "outliers": f.outliers,
+                        "points": f.points,
+                        "method": "soft-L1 robust least squares of the signed boundary distance"}
+    doc["uncertainty"] = {"k": 1, "draws": f.draws or None,
+                          "parts": {part: {k: quantity(v, None, "mm") for k, v in d.items()}
+                                    for part, d in f.u_parts.items()}}
+    doc["tolerance"] = {"source": f.tolerance_source, "dims": f.tolerance} if f.nominal is not None else None
+    doc["warnings"] = list(f.warnings)
     doc["cautions"] = list(ASSESS_CAUTIONS)
     return doc
 

@@ -12,7 +12,7 @@ from .assess import ASSESS_CAUTIONS, CHECK_KEYS, CHECK_UNITS, LOSS_KEYS, Compari
 from .beams import SUPPORTS
 from .table import _columns, format_measured, format_value
 
-__all__ = ["format_screen", "format_comparison", "cell", "caution_lines"]
+__all__ = ["format_screen", "format_comparison", "format_fit", "cell", "caution_lines"]
 
 _CHECK_MEANINGS = {
     "max_moment": "largest bending moment, self-weight included",
@@ -80,6 +80,36 @@ def format_comparison(c: Comparison) -> str:
         if c.tolerance_source:
             lines.append(f"  rolling tolerances: {c.tolerance_source}")
     lines += warning_lines(c.warnings)
+    return "\n".join(lines + caution_lines())
+
+
+_STATUS = {"within": "within tolerance", "below": "below tolerance", "above": "above tolerance",
+           "undecided": "cannot tell (U crosses a limit)"}
+
+
+def format_fit(f, name: str) -> str:
+    """The fitted dimensions, with the nominal and its tolerance where one was given."""
+    head = [f"{name}: fitted {f.kind}",
+            f"  pose: turned {f.angle:.4g} deg" + (" after a mirror" if f.mirrored else "")
+            + f"; boundary distance robust RMS {f.residual_rms:.3g} mm over {f.points} points, "
+              f"{100 * f.outliers:.1f} % farther than 3 RMS (pits, wane)",
+            "  values ± U: U = 2u (k = 2)" + (f"; measurement part from {f.draws} Monte Carlo draws" if f.draws else "")]
+    titles = ["dimension", "fitted ± U", "unit"]
+    if f.nominal is not None:
+        titles += ["nominal", "tolerance", "verdict"]
+    rows = [titles]
+    for k, v in f.dims.items():
+        row = [k, cell(v, f.u.get(k)), "mm"]
+        if f.nominal is not None:
+            t = f.tolerance.get(k, {})
+            row += [format_value(t["nominal"]) if "nominal" in t else "",
+                    f"-{t['minus']:.3g}/+{t['plus']:.3g}" if "minus" in t else "none",
+                    _STATUS.get(t.get("status"), "")]
+        rows.append(row)
+    lines = head + [""] + _columns(rows, right={1, 3})
+    if f.nominal is not None and f.tolerance_source:
+        lines.append(f"  rolling tolerances: {f.tolerance_source}")
+    lines += warning_lines(f.warnings)
     return "\n".join(lines + caution_lines())
 
 

@@ -76,6 +76,17 @@ only, not a design check; a qualified engineer must assess any member for reuse 
 local building code.
 """
 
+_FIT_EPILOG = """\
+examples:
+  tracer fit beam.jpg --target 6x4:10mm --kind i-section
+  tracer fit outline.toml --kind channel --nominal channel:h=200mm,b=75mm,tw=8.5mm,tf=11.5mm,r=12mm
+  tracer fit joist.toml --kind rectangle --json -
+
+Robust to pits and wane (soft-L1 loss). u combines the measurement's own uncertainty, carried
+through the fit, and the scatter of the residuals. The shipped rolling tolerances are from
+memory: check them. Screening only, not a design check.
+"""
+
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit status."""
@@ -224,6 +235,25 @@ def _parser() -> argparse.ArgumentParser:
                    help="Monte Carlo draws for the u of J (default 100; each is a finite-element solve)")
     _add_assess_options(k)
     k.set_defaults(command="compare", run=_compare)
+
+    f = sub.add_parser(
+        "fit",
+        help="fit a parametric kind (i-section, channel, angle, ...) to a measured outline",
+        description="Fit the dimensions of a parametric kind to the outline in INPUT by robust least squares of "
+                    "the boundary distance, with their uncertainty; with --nominal, judge each against its rolling "
+                    "tolerance.",
+        epilog=_FIT_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    f.add_argument("input", metavar="INPUT", help="a section sheet (.toml) or a photo of the cut end")
+    f.add_argument("--kind", required=True,
+                   choices=("rectangle", "i-section", "channel", "angle", "tee", "tube", "box"),
+                   help="the kind to fit")
+    f.add_argument("--nominal", metavar="SHEET.toml|KIND:DIM=LENGTH,...",
+                   help="the nominal section of the same kind: start there and check the rolling tolerances")
+    f.add_argument("--tolerances", metavar="FILE.toml", help="a rolling-tolerance table (default: the shipped one)")
+    _add_assess_options(f)
+    f.set_defaults(command="fit", run=_fit)
     return parser
 
 
@@ -362,6 +392,26 @@ def _compare(args: argparse.Namespace) -> int:
 
         files.append((args.figure, loss_map(comparison, Path(args.figure).suffix)))
     return _emit(args, compare_json(comparison), format_comparison(comparison), files)
+
+
+def _fit(args: argparse.Namespace) -> int:
+    from .assess import fit_json, nominal_input, shape_of
+    from .assess_table import format_fit
+    from .errors import InputError
+    from .fit import fit_shape
+    from .tolerances import load_tolerances
+
+    nominal = None
+    if args.nominal:
+        shape = shape_of(nominal_input(args.nominal))
+        if shape is None or shape[0] != args.kind:
+            raise InputError(f"--nominal {args.nominal}: give a {args.kind} (a [shape] sheet or {args.kind}:DIM=LENGTH,...)")
+        nominal = shape[1]
+    tolerances = load_tolerances(args.tolerances)
+    measurement, _ = _read_measurement(args.input, args)
+    opts = _draw_options(args, 100)
+    result = fit_shape(measurement, args.kind, nominal=nominal, tolerances=tolerances, **opts)
+    return _emit(args, fit_json(result, measurement), format_fit(result, measurement.name))
 
 
 def _draw_options(args: argparse.Namespace, default: int) -> dict:
