@@ -190,14 +190,10 @@ def _parser() -> argparse.ArgumentParser:
     t.add_argument("--debug", action="store_true", help="show the traceback of an error")
     t.set_defaults(command="target", run=_target)
 
-    c = sub.add_parser(
-        "check",
-        help="screen a measured member as a beam: moment, stress, utilisation, deflection, longest span",
-        description="Screen the member in INPUT as a single-span beam in bending, with the uncertainty of the "
-                    "measured section carried through. Screening only, not a design check.",
-        epilog=_CHECK_EPILOG,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
+    c = _assess_parser(sub, "check", _CHECK_EPILOG,
+                       help="screen a measured member as a beam: moment, stress, utilisation, deflection, longest span",
+                       description="Screen the member in INPUT as a single-span beam in bending, with the uncertainty of the "
+                                   "measured section carried through. Screening only, not a design check.")
     c.add_argument("input", metavar="INPUT", help="a section sheet (.toml) or a photo of the cut end")
     c.add_argument("--material", required=True, metavar="NAME|FILE.toml",
                    help="a shipped material (S235 S275 S355 C16 C24 D30, values from memory: check them) or a "
@@ -216,15 +212,11 @@ def _parser() -> argparse.ArgumentParser:
     _add_assess_options(c)
     c.set_defaults(command="check", run=_check)
 
-    k = sub.add_parser(
-        "compare",
-        help="section loss of a measured member against its nominal section, with a loss map",
-        description="Register the measured section onto the nominal (best rigid fit, mirror allowed) and report "
-                    "the loss of A, Ix, Iy, Sx_top, Zx and J in per cent, and the thinnest reading of each plate "
-                    "element against the nominal and its rolling tolerance.",
-        epilog=_COMPARE_EPILOG,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
+    k = _assess_parser(sub, "compare", _COMPARE_EPILOG,
+                       help="section loss of a measured member against its nominal section, with a loss map",
+                       description="Register the measured section onto the nominal (best rigid fit, mirror allowed) and report "
+                                   "the loss of A, Ix, Iy, Sx_top, Zx and J in per cent, and the thinnest reading of each plate "
+                                   "element against the nominal and its rolling tolerance.")
     k.add_argument("measured", metavar="MEASURED", help="a section sheet (.toml) or a photo of the cut end")
     k.add_argument("nominal", metavar="NOMINAL",
                    help="a sheet, or KIND:DIM=LENGTH,..., e.g. i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm")
@@ -236,15 +228,11 @@ def _parser() -> argparse.ArgumentParser:
     _add_assess_options(k)
     k.set_defaults(command="compare", run=_compare)
 
-    f = sub.add_parser(
-        "fit",
-        help="fit a parametric kind (i-section, channel, angle, ...) to a measured outline",
-        description="Fit the dimensions of a parametric kind to the outline in INPUT by robust least squares of "
-                    "the boundary distance, with their uncertainty; with --nominal, judge each against its rolling "
-                    "tolerance.",
-        epilog=_FIT_EPILOG,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
+    f = _assess_parser(sub, "fit", _FIT_EPILOG,
+                       help="fit a parametric kind (i-section, channel, angle, ...) to a measured outline",
+                       description="Fit the dimensions of a parametric kind to the outline in INPUT by robust least squares of "
+                                   "the boundary distance, with their uncertainty; with --nominal, judge each against its rolling "
+                                   "tolerance.")
     f.add_argument("input", metavar="INPUT", help="a section sheet (.toml) or a photo of the cut end")
     f.add_argument("--kind", required=True,
                    choices=("rectangle", "i-section", "channel", "angle", "tee", "tube", "box"),
@@ -255,6 +243,12 @@ def _parser() -> argparse.ArgumentParser:
     _add_assess_options(f)
     f.set_defaults(command="fit", run=_fit)
     return parser
+
+
+def _assess_parser(sub, name: str, epilog: str, *, help: str, description: str) -> argparse.ArgumentParser:
+    """A subcommand of the assessment family, its examples kept as written."""
+    return sub.add_parser(name, help=help, description=description, epilog=epilog,
+                          formatter_class=argparse.RawDescriptionHelpFormatter)
 
 
 def _add_assess_options(parser: argparse.ArgumentParser) -> None:
