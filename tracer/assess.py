@@ -462,7 +462,7 @@ def compare_sections(measurement: Measurement, nominal: Measurement, *, toleranc
     from .plates import plate_elements, plate_thickness
     from .register import register, transform_vertices
     from .tolerances import load_tolerances, tolerance_of
-    from .torsion import evaluate_torsion, torsion_properties
+    from .torsion import torsion_properties
 
     table = tolerances if tolerances is not None else load_tolerances()
     warnings: list[str] = list(measurement.warnings)
@@ -477,10 +477,8 @@ def compare_sections(measurement: Measurement, nominal: Measurement, *, toleranc
     measured_values = {k: pm.values()[k] for k in keys}
     t_nom_section = (nominal.mc_proxy or (nominal.section, None))[0]
     nominal_values["J"] = torsion_properties(t_nom_section).J
-    t_sec, t_model = measurement.mc_proxy or (measurement.section, measurement.error_model)
-    tor, tor_u = evaluate_torsion(t_sec, t_model if measurement.error_model else None, draws=torsion_draws,
-                                  seed=seed)
-    measured_values["J"] = tor.J
+    J, u_J = _torsion_constant(measurement, draws=torsion_draws, seed=seed)
+    measured_values["J"] = J
     u: dict[str, float] = {}
     shape = shape_of(nominal)
     plates = plate_elements(*shape) if shape is not None else []
@@ -499,7 +497,7 @@ def compare_sections(measurement: Measurement, nominal: Measurement, *, toleranc
         for k in keys:
             with np.errstate(invalid="ignore"):
                 u[k] = float(np.sqrt(np.nanmean((reg_rows[k] - ref[k]) ** 2)))
-        u["J"] = tor_u.u["J"]
+        u["J"] = u_J
         xy_s, starts_s = sec_reg.vertices()
         for i, p in enumerate(plates):
             own = plate_thickness(xy_s, starts_s, p)
@@ -669,6 +667,30 @@ def _screen_draws(measurement: Measurement, outputs, values: Mapping[str, float]
     base_out = outputs(xy[None, :, 0], xy[None, :, 1], base)
     shift = {k: values[k] - float(base_out[k][0]) for k in dist}
     return dist, shift
+
+
+def _torsion_constant(measurement: Measurement, *, draws: int, seed: int) -> tuple[float, float | None]:
+    """J of the measured section and its u (Monte Carlo, discretisation error added as in
+    :func:`tracer.torsion.evaluate_torsion`).
+
+    The mesh is built on a copy moved to its centroid, and the draws moved with it: J does not
+    depend on where the section lies, but the torsion solver was seen to fail to converge (and
+    return a J a hundred times too large) on a section some 250 mm from the origin.
+    """
+    from .torsion import TorsionModel
+    from .uncertainty import draw_vertices
+
+    sec, model = measurement.mc_proxy or (measurement.section, measurement.error_model)
+    p = section_properties(sec)
+    tm = TorsionModel(sec.translated(-p.cx, -p.cy))
+    tor = tm.converge()
+    if not measurement.error_model:
+        return tor.J, None
+    x, y = draw_vertices(sec, model, draws=draws, seed=seed, props=p)
+    vals = tm.draws(x - p.cx, y - p.cy)[0]                   # row 0 is J (TORSION_KEYS)
+    with np.errstate(invalid="ignore"):
+        rms = float(np.sqrt(np.nanmean((vals - tor.J) ** 2)))
+    return tor.J, math.hypot(rms, tor.error["J"] / math.sqrt(3.0))
 
 
 def _props_rows(p: Properties) -> dict[str, np.ndarray]:
