@@ -191,3 +191,84 @@ def test_monte_carlo_options_and_reproducibility(tmp_path):
     assert d["uncertainty"]["monte_carlo"]["draws"] == 500
     bad = run("measure", sheet, "--draws", "1")
     assert bad.returncode == 2 and "at least 2 draws" in bad.stderr
+
+
+# -- assessment commands ------------------------------------------------------------------------
+IPE200_U = IPE200 + '[uncertainty]\nreading = 0.05\n'
+
+
+def test_check_table_and_fixed_json_keys(tmp_path):
+    sheet = write(tmp_path, "ipe.toml", IPE200_U)
+    args = ["check", str(sheet), "--material", "S355", "--span", "5m", "--support", "simple", "--udl", "10kN/m",
+            "--point", "20kN", "--draws", "200"]
+    r = run(*args)
+    assert r.returncode == 0, r.stderr
+    assert "utilisation_p95" in r.stdout and "± " in r.stdout
+    assert "not a design check" in r.stdout and "qualified engineer" in r.stdout and "buckling" in r.stdout
+    out = tmp_path / "check.json"
+    r = run(*args, "--json", str(out))
+    doc = json.loads(out.read_text())
+    for key in ("max_moment", "stress", "utilisation", "utilisation_p95", "deflection", "deflection_limit",
+                "max_span"):
+        assert set(doc[key]) == {"value", "u", "unit"}, key
+    # w L^2 / 8 + P L / 4 with the self-weight of IPE 200 (22.4 kg/m, EN 10365, from memory) added.
+    w = 10 + 22.4 * 9.80665e-3
+    assert doc["max_moment"]["value"] == pytest.approx(w * 25 / 8 + 20 * 5 / 4, rel=2e-4)
+    assert doc["max_moment"]["unit"] == "kN*m" and doc["max_span"]["unit"] == "m"
+    assert doc["schema"] == "tracer/check/1" and doc["tool"]["name"] == "tracer" and doc["cautions"]
+
+
+@pytest.mark.parametrize("extra,message", [
+    (["--material", "S999"], "'S999' is not a shipped material"),
+    (["--material", "S235", "--point", "12"], "--point = '12' is not a force with a unit"),
+    (["--material", "S235", "--udl", "5kN"], "'kN' is not a unit of load per length"),
+    (["--material", "S235", "--udl", "5kN/m", "--span", "5"], "--span = '5' is not a length with a unit"),
+])
+def test_check_bad_input_exits_2_with_a_message(tmp_path, extra, message):
+    sheet = write(tmp_path, "ipe.toml", IPE200_U)
+    base = ["check", str(sheet), "--span", "5m", "--support", "simple", "--udl", "1kN/m"]
+    r = run(*base, *extra)
+    assert r.returncode == 2
+    assert message in r.stderr and len(r.stderr.strip().splitlines()) <= 2
+
+
+def test_compare_table_json_and_figure(tmp_path):
+    sheet = write(tmp_path, "ipe.toml", IPE200_U.replace("tf = 8.5", "tf = 7.0"))   # both flanges thinned
+    fig = tmp_path / "loss.svg"
+    out = tmp_path / "loss.json"
+    r = run("compare", str(sheet), "i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm", "--figure", str(fig),
+            "--json", str(out), "--draws", "100", "--torsion-draws", "10")
+    assert r.returncode == 0, r.stderr
+    assert "loss beyond rolling tolerance" in r.stdout and "not a design check" in r.stdout
+    doc = json.loads(out.read_text())
+    assert list(doc["loss"]) == ["A", "Ix", "Iy", "Sx_top", "Zx", "J"]
+    # Two flanges 1.5 mm thinner over b - tw = 94.4 mm of their width each (outside the web):
+    # 2 x 1.5 x 94.4 = 283.2 mm^2 of A = 2848.4 mm^2 (IPE 200, EN 10365, from memory) is 9.94 %.
+    assert doc["loss"]["A"]["value"] == pytest.approx(100 * 283.2 / 2848.4, abs=0.01)
+    assert doc["loss"]["A"]["u"] > 0 and doc["schema"] == "tracer/compare/1" and doc["cautions"]
+    text = fig.read_text()
+    assert text.startswith("<?xml") and "qualified engineer" in text
+
+
+def test_compare_bad_nominal_exits_2(tmp_path):
+    sheet = write(tmp_path, "ipe.toml", IPE200_U)
+    r = run("compare", str(sheet), "i-section:h=200,b=100,tw=5.6,tf=8.5")
+    assert r.returncode == 2 and "nominal h = '200' is not a length with a unit" in r.stderr
+    r = run("compare", str(sheet), "girder:h=200mm")
+    assert r.returncode == 2 and "KIND:DIM=LENGTH" in r.stderr
+
+
+def test_fit_json_keys_and_bad_kind(tmp_path):
+    sheet = write(tmp_path, "ipe.toml", IPE200_U)
+    r = run("fit", str(sheet), "--kind", "i-section", "--json", "-", "--draws", "20",
+            "--nominal", "i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm")
+    assert r.returncode == 0, r.stderr
+    doc = json.loads(r.stdout)
+    assert doc["schema"] == "tracer/fit/1" and doc["kind"] == "i-section"
+    assert list(doc["dims"]) == ["h", "b", "tw", "tf", "r"]
+    assert doc["dims"]["tw"]["value"] == pytest.approx(5.6, abs=0.01) and doc["dims"]["tw"]["unit"] == "mm"
+    assert doc["tolerance"]["dims"]["tw"]["status"] == "within"
+    r = run("fit", str(sheet), "--kind", "girder")
+    assert r.returncode == 2 and "invalid choice: 'girder'" in r.stderr
+    r = run("fit", str(sheet), "--kind", "channel", "--nominal", "i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm")
+    assert r.returncode == 2 and "give a channel" in r.stderr

@@ -51,6 +51,43 @@ exit status: 0 done, 1 input readable but not measurable, 2 bad usage or unreada
 Results are for screening only, not a design check.
 """
 
+_CHECK_EPILOG = """\
+examples:
+  tracer check joist.toml --material C24 --span 3.6m --support simple --udl 1.5kN/m
+  tracer check beam.toml --material S275 --span 5m --support fixed --point 12kN --limit 360
+  tracer check beam.jpg --target 6x4:10mm --material S235 --span 2m --support cantilever --point 2kip
+  tracer check joist.toml --material my-oak.toml --span 12ft --support simple --udl 300lbf/ft --json -
+
+Self-weight (density x g x A) is added to the uniform load. Values are value ± U, U = 2u (k = 2),
+from Monte Carlo draws of the measured section; loads, E and strength are taken as given.
+Screening only, not a design check: lateral-torsional buckling, shear, bearing, connections,
+defects and durability are not checked; a qualified engineer must assess any member for reuse
+under the local building code.
+"""
+
+_COMPARE_EPILOG = """\
+examples:
+  tracer compare corroded.toml i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm --figure loss.svg
+  tracer compare beam.jpg --target 6x4:10mm nominal.toml --json loss.json
+
+Loss is (nominal - measured) / nominal, positive = material lost, value ± U (k = 2). A plate
+element whose thinnest reading lies within the rolling tolerance (an editable table; the shipped
+bands are from memory: check them) is reported as within tolerance, not as loss. Screening
+only, not a design check; a qualified engineer must assess any member for reuse under the
+local building code.
+"""
+
+_FIT_EPILOG = """\
+examples:
+  tracer fit beam.jpg --target 6x4:10mm --kind i-section
+  tracer fit outline.toml --kind channel --nominal channel:h=200mm,b=75mm,tw=8.5mm,tf=11.5mm,r=12mm
+  tracer fit joist.toml --kind rectangle --json -
+
+Robust to pits and wane (soft-L1 loss). u combines the measurement's own uncertainty, carried
+through the fit, and the scatter of the residuals. The shipped rolling tolerances are from
+memory: check them. Screening only, not a design check.
+"""
+
 
 _EXPORT_EPILOG = """\
 examples:
@@ -109,8 +146,9 @@ def main(argv: Sequence[str] | None = None) -> int:
 def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="tracer",
-        description="Exact section properties of members that no catalogue describes, "
-                    "from caliper readings or a traced outline.",
+        description="Exact section properties, with their uncertainty, of members that no catalogue describes, "
+                    "from caliper readings, a traced outline, or a photo of the cut end; reports, exports, "
+                    "batches and a screening of what a member can carry.",
         epilog=_MAIN_EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
@@ -120,7 +158,7 @@ def _parser() -> argparse.ArgumentParser:
 
     m = sub.add_parser(
         "measure",
-        help="section properties of a section sheet",
+        help="section properties of a section sheet or a photo of the cut end",
         description="Compute area, centroid, second moments, principal axes, elastic and plastic "
                     "moduli of the section in INPUT and print them as a table.",
         epilog=_MEASURE_EPILOG,
@@ -147,27 +185,8 @@ def _parser() -> argparse.ArgumentParser:
                         "200 for the torsion properties)")
     m.add_argument("--random-seed", type=int, default=None, metavar="N",
                    help="seed of the Monte Carlo draws (default fixed, so reruns print the same numbers)")
-    photo = m.add_argument_group("photo options")
-    photo.add_argument("--target", metavar="CxR:SIZE",
-                       help="a printed checkerboard in the plane of the cut face: inner corners across x down, "
-                            "and the square size, e.g. 6x4:10mm")
-    photo.add_argument("--scale", metavar="X1,Y1,X2,Y2=LENGTH",
-                       help="two image points (pixels, x right, y down) a known distance apart, e.g. 120,80,1620,95=100mm")
-    photo.add_argument("--dpi", type=float, metavar="N", help="the resolution of a flatbed scan")
-    photo.add_argument("--known", metavar="depth=LENGTH|width=LENGTH",
-                       help="one caliper reading of the member: the scale alone, or a cross-check with a target")
-    photo.add_argument("--seed", metavar="X,Y", help="a pixel on the member, where several objects are in view")
-    photo.add_argument("--max-tilt", type=float, default=None, metavar="DEG",
-                       help="assumed bound of the camera's tilt to the face without a target (default 5)")
-    photo.add_argument("--texture", metavar="LENGTH",
-                       help="cracks and specks narrower than this are texture (default 2mm)")
-    photo.add_argument("--ruler", metavar="auto|X1,Y1,X2,Y2",
-                       help="a ruler in view as the scale: auto finds it; or a rough line along it (pixels)")
-    photo.add_argument("--pitch", metavar="LENGTH", help="the ruler's graduation: 1mm (default), 1/16in, 1/32in")
-    photo.add_argument("--ruler-class", choices=("I", "II", "III"), default=None,
-                       help="the rule's accuracy class (default II, common for folding rules and tapes)")
-    photo.add_argument("--lens", metavar="FILE", help="the camera's lens profile (tracer calibrate): distortion removed")
-    photo.add_argument("--overlay", metavar="PATH.png", help="write the review picture of the trace")
+    photo = _add_photo_options(m)
+    m.add_argument("--overlay", metavar="PATH.png", help="write the review picture of the trace")
     m.add_argument("--debug", action="store_true", help="show the traceback of an error")
     m.set_defaults(command="measure", run=_measure)
 
@@ -271,33 +290,101 @@ def _parser() -> argparse.ArgumentParser:
             b_photo._add_action(action)
     b.add_argument("--debug", action="store_true", help="show the traceback of an error")
     b.set_defaults(command="batch", run=_batch)
+
+    c = _assess_parser(sub, "check", _CHECK_EPILOG,
+                       help="screen a measured member as a beam: moment, stress, utilisation, deflection, longest span",
+                       description="Screen the member in INPUT as a single-span beam in bending, with the uncertainty of the "
+                                   "measured section carried through. Screening only, not a design check.")
+    c.add_argument("input", metavar="INPUT", help="a section sheet (.toml) or a photo of the cut end")
+    c.add_argument("--material", required=True, metavar="NAME|FILE.toml",
+                   help="a shipped material (S235 S275 S355 C16 C24 D30, values from memory: check them) or a "
+                        "FILE.toml with E and strength")
+    c.add_argument("--span", required=True, metavar="LENGTH", help="the span, with its unit, e.g. 3.6m")
+    c.add_argument("--support", required=True, choices=("simple", "cantilever", "fixed"),
+                   help="simple: both ends pinned; cantilever: one end fixed; fixed: both ends fixed")
+    c.add_argument("--udl", metavar="FORCE/LENGTH", help="uniform load over the span, e.g. 5kN/m or 300lbf/ft")
+    c.add_argument("--point", metavar="FORCE", help="point load at midspan (at the tip of a cantilever), e.g. 12kN")
+    c.add_argument("--limit", type=float, default=250.0, metavar="N",
+                   help="deflection limit span/N (default 250; use your code's)")
+    c.add_argument("--axis", default="x", choices=("x", "y"),
+                   help="bending about x (loads along y, the default) or about y")
+    c.add_argument("--partial-factor", type=float, default=None, metavar="G",
+                   help="divides the strength (default: the material's, else 1)")
+    _add_assess_options(c)
+    c.set_defaults(command="check", run=_check)
+
+    k = _assess_parser(sub, "compare", _COMPARE_EPILOG,
+                       help="section loss of a measured member against its nominal section, with a loss map",
+                       description="Register the measured section onto the nominal (best rigid fit, mirror allowed) and report "
+                                   "the loss of A, Ix, Iy, Sx_top, Zx and J in per cent, and the thinnest reading of each plate "
+                                   "element against the nominal and its rolling tolerance.")
+    k.add_argument("measured", metavar="MEASURED", help="a section sheet (.toml) or a photo of the cut end")
+    k.add_argument("nominal", metavar="NOMINAL",
+                   help="a sheet, or KIND:DIM=LENGTH,..., e.g. i-section:h=200mm,b=100mm,tw=5.6mm,tf=8.5mm,r=12mm")
+    k.add_argument("--figure", metavar="PATH.svg|PATH.png|PATH.pdf",
+                   help="write the loss map: nominal and measured outlines, loss shaded")
+    k.add_argument("--tolerances", metavar="FILE.toml", help="a rolling-tolerance table (default: the shipped one)")
+    k.add_argument("--torsion-draws", type=_positive_int, default=100, metavar="N",
+                   help="Monte Carlo draws for the u of J (default 100; each is a finite-element solve)")
+    _add_assess_options(k)
+    k.set_defaults(command="compare", run=_compare)
+
+    f = _assess_parser(sub, "fit", _FIT_EPILOG,
+                       help="fit a parametric kind (i-section, channel, angle, ...) to a measured outline",
+                       description="Fit the dimensions of a parametric kind to the outline in INPUT by robust least squares of "
+                                   "the boundary distance, with their uncertainty; with --nominal, judge each against its rolling "
+                                   "tolerance.")
+    f.add_argument("input", metavar="INPUT", help="a section sheet (.toml) or a photo of the cut end")
+    f.add_argument("--kind", required=True,
+                   choices=("rectangle", "i-section", "channel", "angle", "tee", "tube", "box"),
+                   help="the kind to fit")
+    f.add_argument("--nominal", metavar="SHEET.toml|KIND:DIM=LENGTH,...",
+                   help="the nominal section of the same kind: start there and check the rolling tolerances")
+    f.add_argument("--tolerances", metavar="FILE.toml", help="a rolling-tolerance table (default: the shipped one)")
+    _add_assess_options(f)
+    f.set_defaults(command="fit", run=_fit)
     return parser
 
 
-def _read_measurement(args: argparse.Namespace):
-    """INPUT and the photo options -> (Measurement, the PhotoMeasurement or None)."""
-    from .errors import InputError
-    from .sheet import read_sheet
+def _assess_parser(sub, name: str, epilog: str, *, help: str, description: str) -> argparse.ArgumentParser:
+    """A subcommand of the assessment family, its examples kept as written."""
+    return sub.add_parser(name, help=help, description=description, epilog=epilog,
+                          formatter_class=argparse.RawDescriptionHelpFormatter)
 
-    path = Path(args.input)
-    photo_opts = {k: getattr(args, k)
-                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "lens", "ruler", "pitch",
-                            "ruler_class", "overlay")
-                  if getattr(args, k, None) is not None}
-    if path.suffix.lower() == ".toml":
-        if photo_opts:
-            raise InputError(f"--{next(iter(photo_opts)).replace('_', '-')} is a photo option; {path} is a sheet")
-        return read_sheet(path), None
-    from .photo.pipeline import PHOTO_SUFFIXES, measure_photo
 
-    if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
-        raise InputError(f"{path}: no such file")
-    kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture", "lens", "ruler", "pitch",
-                                     "ruler_class") if k in photo_opts}
-    if "max_tilt" in photo_opts:
-        kw["max_tilt"] = photo_opts["max_tilt"]
-    pm = measure_photo(path, name=getattr(args, "name", None), **kw)
-    return pm.measurement, pm
+def _add_assess_options(parser: argparse.ArgumentParser) -> None:
+    """--json, Monte Carlo settings, the photo options and --debug of compare, fit and check."""
+    parser.add_argument("--json", metavar="PATH", help="write the JSON to PATH, or to standard output with -")
+    parser.add_argument("--draws", type=_positive_int, metavar="N",
+                        help="Monte Carlo draws of the measured section")
+    parser.add_argument("--random-seed", type=int, default=None, metavar="N", help="seed of the Monte Carlo draws")
+    _add_photo_options(parser)
+    parser.add_argument("--debug", action="store_true", help="show the traceback of an error")
+
+
+def _add_photo_options(parser: argparse.ArgumentParser) -> argparse._ArgumentGroup:
+    """The options of a photo INPUT (shared by measure, compare, fit and check); returns their group."""
+    photo = parser.add_argument_group("photo options")
+    photo.add_argument("--target", metavar="CxR:SIZE",
+                       help="a printed checkerboard in the plane of the cut face: inner corners across x down, "
+                            "and the square size, e.g. 6x4:10mm")
+    photo.add_argument("--scale", metavar="X1,Y1,X2,Y2=LENGTH",
+                       help="two image points (pixels, x right, y down) a known distance apart, e.g. 120,80,1620,95=100mm")
+    photo.add_argument("--dpi", type=float, metavar="N", help="the resolution of a flatbed scan")
+    photo.add_argument("--known", metavar="depth=LENGTH|width=LENGTH",
+                       help="one caliper reading of the member: the scale alone, or a cross-check with a target")
+    photo.add_argument("--seed", metavar="X,Y", help="a pixel on the member, where several objects are in view")
+    photo.add_argument("--max-tilt", type=float, default=None, metavar="DEG",
+                       help="assumed bound of the camera's tilt to the face without a target (default 5)")
+    photo.add_argument("--texture", metavar="LENGTH",
+                       help="cracks and specks narrower than this are texture (default 2mm)")
+    photo.add_argument("--ruler", metavar="auto|X1,Y1,X2,Y2",
+                       help="a ruler in view as the scale: auto finds it; or a rough line along it (pixels)")
+    photo.add_argument("--pitch", metavar="LENGTH", help="the ruler's graduation: 1mm (default), 1/16in, 1/32in")
+    photo.add_argument("--ruler-class", choices=("I", "II", "III"), default=None,
+                       help="the rule's accuracy class (default II, common for folding rules and tapes)")
+    photo.add_argument("--lens", metavar="FILE", help="the camera's lens profile (tracer calibrate): distortion removed")
+    return photo
 
 
 def _measure(args: argparse.Namespace) -> int:
@@ -312,7 +399,7 @@ def _measure(args: argparse.Namespace) -> int:
         from .report import report_format
 
         report_format(args.report)                     # a bad suffix is refused before any work
-    measurement, pm = _read_measurement(args)
+    measurement, pm = _read_measurement(args.input, args, name=getattr(args, "name", None))
     seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
     result = measure(measurement, align=args.align, draws=args.draws, seed=seed,
                      characteristic=args.characteristic, torsion=args.torsion)
@@ -368,7 +455,7 @@ def _export(args: argparse.Namespace) -> int:
     fmt = export_format(args.to)                       # a bad suffix is refused before any work
     if not Path(args.to).parent.is_dir():
         raise InputError(f"{args.to}: its folder does not exist; create it or choose another path")
-    measurement, _ = _read_measurement(args)
+    measurement, _ = _read_measurement(args.input, args)
     seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
     result = measure(measurement, align=args.align, draws=args.draws, seed=seed)
     write_atomic_bytes(args.to, export_bytes(fmt, result, units=args.units))
@@ -459,6 +546,120 @@ def _clock(seconds: float | None) -> str:
 
 def _jobs(text: str) -> int:
     return _whole_number(text, 1, "give at least 1 worker")
+
+
+def _read_measurement(input_path: str, args: argparse.Namespace, *, name: str | None = None):
+    """INPUT (a sheet or a photo, with the photo options in `args`) -> (Measurement, PhotoMeasurement or None)."""
+    from .errors import InputError
+    from .sheet import read_sheet
+
+    path = Path(input_path)
+    photo_opts = {k: getattr(args, k)
+                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "lens", "ruler", "pitch",
+                            "ruler_class", "overlay")
+                  if getattr(args, k, None) is not None}
+    if path.suffix.lower() == ".toml":
+        if photo_opts:
+            raise InputError(f"--{next(iter(photo_opts)).replace('_', '-')} is a photo option; {path} is a sheet")
+        return read_sheet(path), None
+    from .photo.pipeline import PHOTO_SUFFIXES, measure_photo
+
+    if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
+        raise InputError(f"{path}: no such file")
+    kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture", "lens", "ruler", "pitch",
+                                     "ruler_class") if k in photo_opts}
+    if "max_tilt" in photo_opts:
+        kw["max_tilt"] = photo_opts["max_tilt"]
+    pm = measure_photo(path, name=name, **kw)
+    return pm.measurement, pm
+
+
+def _check(args: argparse.Namespace) -> int:
+    from .assess import screen_capacity, screen_json
+    from .assess_table import format_screen
+    from .materials import load_material
+    from .units import parse_force, parse_length, parse_line_load
+
+    material = load_material(args.material)
+    span = parse_length(args.span, field="--span")
+    udl = parse_line_load(args.udl, field="--udl") if args.udl else 0.0
+    point = parse_force(args.point, field="--point") if args.point else 0.0
+    measurement, _ = _read_measurement(args.input, args)
+    screen = screen_capacity(measurement, material, span=span, support=args.support, udl=udl, point=point,
+                             limit=args.limit, axis=args.axis, partial_factor=args.partial_factor,
+                             **_draw_options(args, 1000))
+    return _emit(args, screen_json(screen), format_screen(screen))
+
+
+def _compare(args: argparse.Namespace) -> int:
+    from .assess import compare_json, compare_sections, nominal_input
+    from .assess_table import format_comparison
+    from .errors import InputError
+    from .tolerances import load_tolerances
+
+    if args.figure and Path(args.figure).suffix.lower() not in (".svg", ".png", ".pdf"):
+        raise InputError(f"--figure {args.figure}: write .svg, .png or .pdf")
+    nominal = nominal_input(args.nominal)
+    tolerances = load_tolerances(args.tolerances)
+    measurement, _ = _read_measurement(args.measured, args)
+    comparison = compare_sections(measurement, nominal, tolerances=tolerances, torsion_draws=args.torsion_draws,
+                                  **_draw_options(args, 1000))
+    files = []
+    if args.figure:
+        from .assess_figure import loss_map
+
+        files.append((args.figure, loss_map(comparison, Path(args.figure).suffix)))
+    return _emit(args, compare_json(comparison), format_comparison(comparison), files)
+
+
+def _fit(args: argparse.Namespace) -> int:
+    from .assess import fit_json, nominal_input, shape_of
+    from .assess_table import format_fit
+    from .errors import InputError
+    from .fit import fit_shape
+    from .tolerances import load_tolerances
+
+    nominal = None
+    if args.nominal:
+        shape = shape_of(nominal_input(args.nominal))
+        if shape is None or shape[0] != args.kind:
+            raise InputError(f"--nominal {args.nominal}: give a {args.kind} (a [shape] sheet or {args.kind}:DIM=LENGTH,...)")
+        nominal = shape[1]
+    tolerances = load_tolerances(args.tolerances)
+    measurement, _ = _read_measurement(args.input, args)
+    opts = _draw_options(args, 100)
+    result = fit_shape(measurement, args.kind, nominal=nominal, tolerances=tolerances, **opts)
+    return _emit(args, fit_json(result, measurement), format_fit(result, measurement.name))
+
+
+def _draw_options(args: argparse.Namespace, default: int) -> dict:
+    from .uncertainty import DEFAULT_SEED
+
+    return {"draws": args.draws or default,
+            "seed": DEFAULT_SEED if args.random_seed is None else args.random_seed}
+
+
+def _emit(args: argparse.Namespace, doc: dict, table: str, files: list[tuple[str, bytes]] = ()) -> int:
+    """Write the JSON and any other files (all computed already), then print the table or the JSON."""
+    from .errors import InputError
+    from .files import write_atomic_bytes
+
+    doc_text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
+    outputs = list(files)
+    if args.json not in (None, "-"):
+        outputs.insert(0, (args.json, doc_text.encode("utf-8")))
+    for target, _ in outputs:
+        if not Path(target).parent.is_dir():
+            raise InputError(f"{target}: its folder does not exist; create it or choose another path")
+    for target, data in outputs:
+        write_atomic_bytes(target, data)
+    if args.json == "-":
+        sys.stdout.write(doc_text)
+    else:
+        print(table)
+        for target, _ in outputs:
+            print(f"\n  wrote {target}")
+    return 0
 
 
 def _positive_int(text: str) -> int:
