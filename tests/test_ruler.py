@@ -188,3 +188,29 @@ def test_a_batch_manifest_takes_the_ruler(tmp_path):
     rows = [line for line in (tmp_path / "out" / "inventory.csv").read_text().splitlines() if not line.startswith("#")]
     header, row = rows[0].split(","), rows[1].split(",")
     assert row[header.index("status")] == "done" and row[header.index("scale_method")] == "ruler"
+
+
+def test_two_rulers_square_to_each_other_remove_the_perspective(tmp_path):
+    # Two rules laid square (a framing square's legs): their vanishing points fix the plane's
+    # homography (affine, then metric rectification), so tilt up to 12 deg leaves no allowance
+    # behind; the intervals are a target's, not a lone ruler's, and still cover the truth.
+    rng = np.random.default_rng(3)
+    shapes = [JOIST, channel(h=152, b=76, tw=6.4, tf=9, r=8, chord_angle=0.05), tube(d=114.3, t=6.3, chord_angle=0.05)]
+    covered = {k: [] for k in ("A", "I1", "I2")}
+    for i in range(6):
+        scene = Scene(section=shapes[i % 3].translated(40.0, -20.0), target=None, ruler=True, px_per_mm=4.5,
+                      tilt=rng.uniform(0, 12), tilt_axis=rng.uniform(0, 180), blur=rng.uniform(0.8, 1.4),
+                      ruler_at=(0.0, -60.0, 0.0), second_ruler=(-60.0, 0.0, 90.0), ruler_length=250.0, seed=60 + i)
+        r, photo = _photo(tmp_path, scene, f"two{i}.jpg")
+        pm = measure_photo(photo, ruler="auto")
+        assert pm.measurement.source["scale"]["method"] == "two rulers"
+        res = measure(pm.measurement, draws=300)
+        truth = section_properties(r.section).values()
+        for k in covered:
+            e = res.properties.values()[k] - truth[k]
+            covered[k].append(abs(e) <= 2 * res.u[k])
+            assert abs(e) / truth[k] <= (0.005 if k == "A" else 0.015), (i, k)
+            assert res.u[k] / truth[k] < 0.025                  # no tilt or perspective allowance left
+        assert not any("fixes the scale along its own direction only" in w for w in res.warnings)
+    for k in covered:
+        assert np.mean(covered[k]) >= 0.9, (k, covered[k])

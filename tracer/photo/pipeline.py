@@ -23,7 +23,7 @@ from .lens import LensProfile, read_profile
 from .load import Photo, load_photo
 from .ruler import MIN_TICKS, RulerReading, pitch_check
 from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_ruler,
-                    map_from_target, parse_target, parse_two_points)
+                    map_from_target, map_from_two_rulers, parse_target, parse_two_points)
 from .segment import Segmentation, segment_member
 from .view import camera_view, image_side, side_faces
 
@@ -115,9 +115,14 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         if profile is not None:
             raise InputError("--ruler with --lens is not supported yet: measure with the ruler alone (a lens "
                              "allowance is added) or use a target")
-        reading, pitch_mm = _read_ruler(photo, ruler, pitch, ruler_class)
-        pitch_check(pitch_mm, reading.long_every, pitch or "1mm", reading.longest_every)
-        plane = map_from_ruler(reading, pitch_mm, max_tilt=max_tilt, ruler_class=ruler_class)
+        readings, pitch_mm = _read_ruler(photo, ruler, pitch, ruler_class)
+        for r in readings:
+            pitch_check(pitch_mm, r.long_every, pitch or "1mm", r.longest_every)
+        reading = readings[0]
+        if len(readings) == 2:
+            plane = map_from_two_rulers(readings[0], readings[1], pitch_mm, ruler_class=ruler_class)
+        else:
+            plane = map_from_ruler(reading, pitch_mm, max_tilt=max_tilt, ruler_class=ruler_class)
     elif profile is None and (dpi is not None or (photo.dpi is not None and known is None)):
         plane = map_from_dpi(float(dpi if dpi is not None else photo.dpi),
                              stated="--dpi" if dpi is not None else "the file's metadata")
@@ -289,21 +294,20 @@ def _perspective_allowance(plane: PlaneMap, trace: Trace, photo: Photo, max_tilt
                f"{100 * a:.1f} % between them (allowed for); put the ruler against the member's face")
 
 
-def _read_ruler(photo: Photo, ruler: str, pitch: str | None, ruler_class: str) -> tuple["RulerReading", float]:
-    """Find or follow the ruler, read it, and check its marks against the pitch."""
-    from .ruler import find_ruler, parse_pitch, parse_ruler, read_ruler, ruler_tolerance
+def _read_ruler(photo: Photo, ruler: str, pitch: str | None, ruler_class: str) -> tuple[list["RulerReading"], float]:
+    """Find the ruler (and a second one square to it) or follow the one given, and read them."""
+    from .ruler import find_rulers, parse_pitch, parse_ruler, read_ruler, ruler_tolerance
 
     pitch_mm = parse_pitch(pitch or "1mm")
     ruler_tolerance(pitch_mm, 100.0, ruler_class)            # an unknown class is refused here
     where = parse_ruler(ruler)
     if isinstance(where, str):
-        reading = find_ruler(photo.gray)
-    else:
-        reading = read_ruler(photo.gray, where[0], where[1])
-        if reading is None:
-            raise MeasurementError(f"no ruler graduation found along --ruler {ruler}: looked for {MIN_TICKS} or "
-                                   "more evenly spaced marks within about an eighth of its length of that line")
-    return reading, pitch_mm
+        return find_rulers(photo.gray), pitch_mm
+    reading = read_ruler(photo.gray, where[0], where[1])
+    if reading is None:
+        raise MeasurementError(f"no ruler graduation found along --ruler {ruler}: looked for {MIN_TICKS} or "
+                               "more evenly spaced marks within about an eighth of its length of that line")
+    return [reading], pitch_mm
 
 
 def _cross_check(trace: Trace) -> list[str]:

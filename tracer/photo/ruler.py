@@ -33,7 +33,7 @@ import numpy as np
 from ..errors import InputError, MeasurementError
 from ..units import parse_length
 
-__all__ = ["RulerReading", "parse_pitch", "pitch_check", "parse_ruler", "find_ruler", "read_ruler", "ruler_tolerance",
+__all__ = ["RulerReading", "parse_pitch", "pitch_check", "find_rulers", "vanishing_point", "two_ruler_homography", "parse_ruler", "find_ruler", "read_ruler", "ruler_tolerance",
            "MIN_TICKS", "RULER_CLASSES"]
 
 #: Fewest graduation marks a reading accepts.
@@ -264,6 +264,74 @@ def find_ruler(gray: np.ndarray, *, keep_out: list[np.ndarray] = ()) -> RulerRea
     raise MeasurementError(f"no ruler found: looked for a straight strip at least 4 times longer than wide with "
                            f"{MIN_TICKS} or more evenly spaced graduation marks; give --ruler X1,Y1,X2,Y2 along it, "
                            "or use a target")
+
+
+def find_rulers(gray: np.ndarray, *, keep_out: list[np.ndarray] = ()) -> list[RulerReading]:
+    """The ruler in view and, where there is one, a second at more than 30 degrees to it.
+
+    Raises
+    ------
+    MeasurementError
+        No ruler at all (see :func:`find_ruler`).
+    """
+    first = find_ruler(gray, keep_out=keep_out)
+    try:
+        second = find_ruler(gray, keep_out=list(keep_out) + [first.strip])
+    except MeasurementError:
+        return [first]
+    if abs(float(first.direction @ second.direction)) > math.cos(math.radians(30.0)):
+        return [first]
+    return [first, second]
+
+
+def vanishing_point(reading: RulerReading, params: np.ndarray | None = None) -> np.ndarray:
+    """The image of the ruler's point at infinity, homogeneous: from s(k) as k grows without end,
+    (c·O + b·d, c) with O the graduation line's origin [1]."""
+    a, b, c = reading.params if params is None else params
+    t = 0.5 * (reading.band[0] + reading.band[1])
+    O = reading.origin + t * reading.normal
+    return np.array([c * O[0] + b * reading.direction[0], c * O[1] + b * reading.direction[1], c])
+
+
+def two_ruler_homography(r1: RulerReading, r2: RulerReading, pitch: float, *, angle_deg: float = 90.0,
+                         p1: np.ndarray | None = None, p2: np.ndarray | None = None) -> np.ndarray:
+    """Pixels -> mm (y up) from two rulers lying in the face at `angle_deg` to each other.
+
+    The two vanishing points give the vanishing line, which a projective map sends to infinity
+    (affine rectification); there each ruler's marks are evenly spaced, and the two spacings and
+    the angle fix the remaining affine map up to a turn (metric rectification) [1, sec. 2.7].
+    `p1`, `p2` replace the rulers' fitted parameters (for Monte Carlo draws).
+    """
+    l = np.cross(vanishing_point(r1, p1), vanishing_point(r2, p2))
+    if abs(l[2]) < 1e-12 * np.hypot(l[0], l[1]):
+        raise MeasurementError("the two rulers' vanishing line passes through the image's origin; cannot rectify")
+    l = l / l[2]
+    Hp = np.array([[1.0, 0.0, 0.0], [0.0, 1.0, 0.0], [l[0], l[1], 1.0]])
+    dirs, per_mm = [], []
+    for r, p in ((r1, p1), (r2, p2)):
+        a, b, c = r.params if p is None else p
+        k0, k1 = float(r.k.min()), float(r.k.max())
+        t = 0.5 * (r.band[0] + r.band[1])
+        pts = np.array([r.origin + ((a + b * k) / (1 + c * k)) * r.direction + t * r.normal for k in (k0, k1)])
+        q = np.column_stack([pts, np.ones(2)]) @ Hp.T
+        q = q[:, :2] / q[:, 2:]
+        v = q[1] - q[0]
+        span = float(np.hypot(*v))
+        dirs.append(v / span)
+        per_mm.append(pitch * (k1 - k0) / span)             # mm per rectified px along the ruler
+    (u1, u2), (m1, m2) = dirs, per_mm
+    rows = np.array([[u1[0] ** 2, 2 * u1[0] * u1[1], u1[1] ** 2],
+                     [u2[0] ** 2, 2 * u2[0] * u2[1], u2[1] ** 2],
+                     [u1[0] * u2[0], u1[0] * u2[1] + u1[1] * u2[0], u1[1] * u2[1]]])
+    rhs = np.array([m1**2, m2**2, m1 * m2 * math.cos(math.radians(angle_deg))])
+    M00, M01, M11 = np.linalg.solve(rows, rhs)
+    w, V = np.linalg.eigh(np.array([[M00, M01], [M01, M11]]))
+    if w.min() <= 0:
+        raise MeasurementError("the two rulers do not fit rulers at right angles on a plane; lay them square to "
+                               "each other in the plane of the cut face")
+    A = V @ np.diag(np.sqrt(w)) @ V.T                      # no turn: the image's own axes stay
+    H = np.diag([1.0, -1.0, 1.0]) @ np.block([[A, np.zeros((2, 1))], [np.zeros((1, 2)), np.ones((1, 1))]]) @ Hp
+    return H / H[2, 2]
 
 
 def _row_of_marks(gray: np.ndarray, *, refs_full: list[np.ndarray] = ()) -> tuple[np.ndarray, np.ndarray, float] | None:

@@ -37,7 +37,7 @@ from ..uncertainty import HomographyError, ScaleError, TiltAllowance
 from ..units import parse_length
 
 __all__ = ["PlaneMap", "parse_target", "parse_two_points", "map_from_target", "map_from_points",
-           "map_from_dpi", "map_from_ruler", "find_corners", "LENS_ALLOWANCE", "DEFAULT_MAX_TILT"]
+           "map_from_dpi", "map_from_ruler", "map_from_two_rulers", "find_corners", "LENS_ALLOWANCE", "DEFAULT_MAX_TILT"]
 
 #: Rectangular allowance on the scale where no lens profile corrects distortion (relative).
 LENS_ALLOWANCE = 0.003
@@ -230,13 +230,48 @@ def map_from_ruler(reading: Any, pitch: float, *, at_px: np.ndarray | None = Non
               "scale_taken_at_px": ref.round(1).tolist(), "class": ruler_class,
               "graduation_tolerance_percent": 100 * tol, "assumed_max_tilt_deg": max_tilt}
     warn = [f"a ruler fixes the scale along its own direction only: an unknown tilt of up to {max_tilt:g} deg "
-            "across it is allowed for (--max-tilt changes it); a target removes it"]
+            "across it is allowed for (--max-tilt changes it); a target, or a second ruler square to the first, removes it"]
     span = s1 - s0
     if s_at < s0 - 0.25 * span or s_at > s1 + 0.25 * span:
         warn.append("the member lies beyond the end of the ruler's graduation; the scale there is extrapolated "
                     "(put the ruler alongside the member)")
     return PlaneMap(H=H, components=comps, record=record, keep_out=[reading.strip], marks=reading.ticks_px,
                     warnings=tuple(warn), lens=lens)
+
+
+def map_from_two_rulers(r1: Any, r2: Any, pitch: float, *, ruler_class: str = "II", square_deg: float = 1.0,
+                        draws: int = 400, seed: int = 20261202) -> PlaneMap:
+    """A homography from two rulers lying square to each other in the face (a framing square, or
+    two rules laid square): perspective removed, as with a target.
+
+    The homography's covariance comes from Monte Carlo draws of both rulers' fitted parameters and
+    of their angle, uniform within ±`square_deg` of a right angle; the rules' own graduation
+    tolerance is added as a scale allowance.
+    """
+    from .ruler import ruler_tolerance, two_ruler_homography
+
+    H = two_ruler_homography(r1, r2, pitch)
+    rng = np.random.default_rng(seed)
+    samples = []
+    for _ in range(draws):
+        p1 = rng.multivariate_normal(r1.params, r1.cov, method="eigh")
+        p2 = rng.multivariate_normal(r2.params, r2.cov, method="eigh")
+        try:
+            samples.append(two_ruler_homography(r1, r2, pitch, angle_deg=90.0 + rng.uniform(-square_deg, square_deg),
+                                                p1=p1, p2=p2).ravel()[:8])
+        except MeasurementError:
+            continue
+    cov = np.cov(np.array(samples).T)
+    used = min((r.extent[1] - r.extent[0]) / r.period_at(0.5 * sum(r.extent))[0] * pitch for r in (r1, r2))
+    tol = ruler_tolerance(pitch, used, ruler_class)
+    comps = (HomographyError(H, cov, label="two rulers (fit, squareness)"),
+             ScaleError(tol / math.sqrt(3.0), distribution="rectangular", label=f"ruler graduation (class {ruler_class})"))
+    record = {"method": "two rulers", "rulers": [r1.record(), r2.record()], "pitch_mm": pitch, "class": ruler_class,
+              "graduation_tolerance_percent": 100 * tol, "assumed_square_within_deg": square_deg}
+    warn = (f"two rulers found, taken as square to each other on the face (within ±{square_deg:g} deg): perspective "
+            "removed from both; lay them square (a framing square is best)",)
+    return PlaneMap(H=H, components=comps, record=record, keep_out=[r1.strip, r2.strip],
+                    marks=np.vstack([r1.ticks_px, r2.ticks_px]), warnings=warn)
 
 
 def map_from_dpi(dpi: float, *, stated: str) -> PlaneMap:

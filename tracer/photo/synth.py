@@ -62,6 +62,8 @@ class Scene:
         The ruler's start [mm] and direction [deg from +x]; None: along the bottom of the scene.
     ruler_length : float
         Its graduated length [mm].
+    second_ruler : (x, y, angle) or None
+        A second rule like the first (a framing square's other leg, say), placed likewise.
     seed : int
         Texture and noise seed.
     sensor : (width, height) or None
@@ -96,6 +98,7 @@ class Scene:
     ruler_marks: tuple[int, ...] = (10, 5)
     ruler_at: tuple[float, float, float] | None = None
     ruler_length: float = 300.0
+    second_ruler: tuple[float, float, float] | None = None
     seed: int = 0
     margin: float = 40.0
     sensor: tuple[int, int] | None = None
@@ -156,9 +159,14 @@ def render(scene: Scene) -> Render:
         else:
             x, y, a = scene.ruler_at
             ruler = (np.array([x, y]), scene.ruler_length, a)
-            ends = _ruler_outline(ruler[0], ruler[1], a)
-            lo = np.minimum(lo, ends.min(axis=0) - 15.0)
-            hi = np.maximum(hi, ends.max(axis=0) + 15.0)
+    rulers = [] if ruler is None else [ruler]
+    if scene.ruler and scene.second_ruler is not None:
+        x, y, a = scene.second_ruler
+        rulers.append((np.array([x, y]), scene.ruler_length, a))
+    for start, length, a in rulers if scene.ruler_at is not None or len(rulers) > 1 else []:
+        ends = _ruler_outline(start, length, a)
+        lo = np.minimum(lo, ends.min(axis=0) - 15.0)
+        hi = np.maximum(hi, ends.max(axis=0) + 15.0)
     P, K, (W, H) = _camera(scene, lo, hi)                 # 3-D mm -> image pixels
     Hc = P[:, [0, 1, 3]] / P[2, 3]                        # the face's plane (z = 0)
     k = _SUPERSAMPLE
@@ -213,8 +221,7 @@ def render(scene: Scene) -> Render:
         squares = [_rect(np.array([tx + (c - 1) * sq, ty + (r - 1) * sq]), np.array([tx + c * sq, ty + r * sq]))
                    for r in range(rows + 1) for c in range(cols + 1) if (r + c) % 2 == 0]
         paint.append((squares, 25.0))
-    if ruler is not None:
-        start, length, a = ruler
+    for start, length, a in rulers:
         paint.append(([_ruler_outline(start, length, a)], 225.0))
         paint.append((_ruler_ticks(start, length, a, scene.ruler_pitch, scene.ruler_marks), 30.0))
     for polys, value in paint:
