@@ -222,10 +222,11 @@ def test_cli_measures_a_photo_with_json_and_overlay(tmp_path):
 
 
 def test_demo_runs_on_a_bundled_sample(tmp_path):
-    run = subprocess.run([sys.executable, "-m", "tracer", "demo", "--overlay", str(tmp_path / "demo.png")],
-                         capture_output=True, text=True)
+    run = subprocess.run([sys.executable, "-m", "tracer", "demo", "--overlay", str(tmp_path / "demo.png"),
+                          "--report", str(tmp_path / "demo.html")], capture_output=True, text=True)
     assert run.returncode == 0, run.stderr
     assert "synthetic photo of an invented member" in run.stdout and (tmp_path / "demo.png").exists()
+    assert "synthetic photo of an invented member" in (tmp_path / "demo.html").read_text(encoding="utf-8")
 
 
 def test_known_depth_sets_the_scale_or_cross_checks_a_target(tmp_path):

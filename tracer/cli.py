@@ -201,6 +201,7 @@ def _parser() -> argparse.ArgumentParser:
     d.add_argument("--list", action="store_true", help="list the samples")
     d.add_argument("--overlay", default="tracer-demo-overlay.png", metavar="PATH.png",
                    help="where to write the review picture (default tracer-demo-overlay.png)")
+    d.add_argument("--report", metavar="FILE.html|FILE.pdf", help="also write the report for the assessment file")
     d.add_argument("--debug", action="store_true", help="show the traceback of an error")
     d.set_defaults(command="demo", run=_demo)
 
@@ -732,6 +733,7 @@ def _demo(args: argparse.Namespace) -> int:
     print(f"  demo: {path.name} is a synthetic photo of an invented member; settings from its sidecar: "
           + " ".join(f"--{k.replace('_', '-')} {v}" for k, v in settings.items()))
     ns = _parser().parse_args(["measure", str(path), "--overlay", args.overlay]
+                              + (["--report", args.report] if args.report else [])
                               + [x for k, v in settings.items() for x in (f"--{k.replace('_', '-')}", str(v))])
     ns.debug = args.debug
     ns.name = f"{name} (synthetic photo of an invented member)"
