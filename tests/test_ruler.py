@@ -209,6 +209,8 @@ def test_two_rulers_square_to_each_other_remove_the_perspective(tmp_path):
         for k in covered:
             e = res.properties.values()[k] - truth[k]
             covered[k].append(abs(e) <= 2 * res.u[k])
+            # Looser than the target's goals (0.3 % and 1 %): a rule's marks are fewer and thinner
+            # than a target's corners (our own bound, from these renders).
             assert abs(e) / truth[k] <= (0.005 if k == "A" else 0.015), (i, k)
             assert res.u[k] / truth[k] < 0.025                  # no tilt or perspective allowance left
         assert not any("fixes the scale along its own direction only" in w for w in res.warnings)
