@@ -90,8 +90,6 @@ class LensProfile:
 
     def undistort(self, px: np.ndarray) -> np.ndarray:
         """Pixel points (N, 2) as seen -> where a distortion-free lens would have put them."""
-        import cv2
-
         if len(px) == 0:
             return np.zeros((0, 2))
         return undistort_points(px, self.camera_matrix, self.distortion)

@@ -454,10 +454,10 @@ def _read_along(gray: np.ndarray, origin: np.ndarray, d: np.ndarray, n: np.ndarr
     s_t, k, params, cov, rms, r0, r1, T0 = got
     # Marks between the ticks read: the finest graduation is there, too blurred to read mark by
     # mark (the longer marks were read). They are counted in: each tick read is m of them.
-    band_prof = R[r0:r1 + 1].mean(axis=0)
+    prof = R[r0:r1 + 1].mean(axis=0).astype(np.float64)
     factor = 1
     for _ in range(3):
-        finer = _finer_marks(band_prof, params, k, T0)
+        finer = _finer_marks(prof, params, k, T0)
         if not finer:
             break
         k, T0, factor = k * finer, T0 / finer, factor * finer
@@ -469,7 +469,6 @@ def _read_along(gray: np.ndarray, origin: np.ndarray, d: np.ndarray, n: np.ndarr
     # The graduation's own line: where the band of marks lies across, chunk by chunk along (under
     # perspective the marks need not be square to it, so their slant would mislead).
     slope = _band_slope(R, t, s_t, T0)
-    prof = R[r0:r1 + 1].mean(axis=0).astype(np.float64)
     band = (float(t[r0]), float(t[r1]))
     levels = _mark_levels(R, prof, s_t, k / factor, r0, r1, T0 * factor)
     long_every, longest_every = (None if v is None else v * factor for v in levels)
