@@ -28,10 +28,11 @@ import numpy as np
 
 from ..errors import GeometryError, MeasurementError
 from ..geometry import Section
+from .load import as_unit
 from .scale import PlaneMap
 from .segment import Segmentation
 
-__all__ = ["Trace", "trace_boundary"]
+__all__ = ["Trace", "trace_boundary", "coarser_section"]
 
 # Simplification tolerance of the pixel rings [px].
 _SIMPLIFY_PX = 0.1
@@ -39,6 +40,8 @@ _SIMPLIFY_PX = 0.1
 _EDGE_SIGMA = 1.0
 # A floor on the systematic edge offset [px]: threshold, blur asymmetry and JPEG ringing.
 _OFFSET_FLOOR_PX = 0.15
+# Side of the tiles the band along the edge is read in [px].
+_TILE = 32
 
 
 @dataclass(frozen=True)
@@ -68,42 +71,84 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
     """Trace the member of `seg` in `gray` to sub-pixel precision and map it with `plane`.
 
     The edge is found on the photo with its light evened and only a light smoothing (σ = 1 px):
-    the heavier smoothing that made the mask would pull curved edges inward.
+    the heavier smoothing that made the mask would pull curved edges inward. Only the band
+    along the mask's edge is read at full resolution, tile by tile; the slowly varying fields
+    (distance to the edge, the levels either side) come from the working copy.
     """
     import cv2
     import shapely
     from skimage.measure import find_contours
 
     band_r = int(math.ceil(3 * smoothing_px + 3))     # past the mask's own smoothing
-    # Work in the member's bounding box, with room for the band and the level windows.
-    r0, r1, c0, c1 = seg.box(pad=6 * band_r + 4)
-    offset = np.array([c0, r0], dtype=float)
-    f = cv2.GaussianBlur((gray[r0:r1, c0:c1] / seg.light_in(r0, r1, c0, c1)).astype(np.float32), (0, 0), _EDGE_SIGMA)
-    full_mask = seg.mask_in(r0, r1, c0, c1)
-    mask = full_mask.astype(np.uint8)
-    # Distances to the mask's edge, inside and out (one pass each, instead of wide dilations).
-    d_in = cv2.distanceTransform(mask, cv2.DIST_L2, 5)
-    d_out = cv2.distanceTransform(1 - mask, cv2.DIST_L2, 5)
-    inner = d_in > band_r
-    outer = d_out > band_r
-    band = ~inner & ~outer
-    level_in = float(np.median(f[inner])) if inner.any() else float(np.median(f[mask.astype(bool)]))
-    ring_out = outer & (d_out <= 2 * band_r)
-    level_out = float(np.median(f[ring_out])) if ring_out.any() else float(seg.threshold)
+    H, W = seg.shape
+    k = seg.step
+    fs = 1.0 / k                                      # working copy / full size
+    # The working copy's fields over the member's box, with room for the widest window below;
+    # `shift` takes photo pixels to the pixels of that part (field_in, field_at).
+    ys, xs = np.nonzero(seg.mask.any(axis=1))[0], np.nonzero(seg.mask.any(axis=0))[0]
+    room = int(math.ceil((9 * band_r + 2 * _TILE) * fs)) + 2
+    s0, s1 = max(0, ys[0] - room), min(seg.mask.shape[0], ys[-1] + 1 + room)
+    t0, t1 = max(0, xs[0] - room), min(seg.mask.shape[1], xs[-1] + 1 + room)
+    shift = np.array([t0 * k, s0 * k], dtype=float)
+    part = seg.mask[s0:s1, t0:t1]
+    # Signed distance to the mask's edge [full px], positive inside, zero on the edge.
+    m8 = part.astype(np.uint8)
+    d_in = cv2.distanceTransform(m8, cv2.DIST_L2, 5)
+    d_out = cv2.distanceTransform(1 - m8, cv2.DIST_L2, 5)
+    sd = (np.where(part, d_in - 0.5, 0.5 - d_out) / fs).astype(np.float32)
+    inner_s = sd > band_r
+    outer_s = sd < -band_r
+    sm = seg.smooth[s0:s1, t0:t1]
+    level_in = float(np.median(sm[inner_s])) if inner_s.any() else float(np.median(sm[part]))
+    ring_out = outer_s & (sd >= -2 * band_r)
+    level_out = float(np.median(sm[ring_out])) if ring_out.any() else float(seg.threshold)
     level = 0.5 * (level_in + level_out)
     # Local levels on either side (uneven light moves both): the edge is where the image
     # crosses their mean, so a brightness gradient across the photo shifts no edge.
-    win = (4 * band_r + 1,) * 2
-    local_in = cv2.blur(np.where(inner, f, 0).astype(np.float32), win) / np.maximum(
-        cv2.blur(inner.astype(np.float32), win), 1e-6)
-    local_out = cv2.blur(np.where(outer, f, 0).astype(np.float32), win) / np.maximum(
-        cv2.blur(outer.astype(np.float32), win), 1e-6)
-    have_in = cv2.blur(inner.astype(np.float32), win) > 0.02
-    have_out = cv2.blur(outer.astype(np.float32), win) > 0.02
-    mid = np.where(have_in & have_out, 0.5 * (local_in + local_out), level)
-    clean = np.where(inner, level_in, np.where(outer, level_out, f)).astype(np.float64)
-    clean = np.where(band, clean - mid, np.where(inner, level_in - level, level_out - level))
-    raw = find_contours(clean, 0.0)
+    win = (_odd((4 * band_r + 1) * fs),) * 2
+    n_in = cv2.blur(inner_s.astype(np.float32), win)
+    n_out = cv2.blur(outer_s.astype(np.float32), win)
+    local_in = cv2.blur(np.where(inner_s, sm, 0).astype(np.float32), win) / np.maximum(n_in, 1e-6)
+    local_out = cv2.blur(np.where(outer_s, sm, 0).astype(np.float32), win) / np.maximum(n_out, 1e-6)
+    mid = np.where((n_in > 0.02) & (n_out > 0.02), 0.5 * (local_in + local_out), level).astype(np.float32)
+    c_in, c_out = level_in - level, level_out - level
+
+    # The member's box, in tiles; the tiles the band passes through are read at full size.
+    r0, r1, c0, c1 = seg.box(pad=band_r + _TILE)
+    R, C = r1 - r0, c1 - c0
+    ty, tx = -(-R // _TILE), -(-C // _TILE)
+    gy, gx = np.mgrid[0:ty, 0:tx]
+    centres = np.column_stack([(c0 + np.minimum((gx.ravel() + 0.5) * _TILE, C - 0.5)),
+                               (r0 + np.minimum((gy.ravel() + 0.5) * _TILE, R - 0.5))])
+    sd_c = seg.field_at(sd, centres - shift).reshape(ty, tx)
+    need = np.abs(sd_c) <= band_r + 0.75 * _TILE + 2.0 / fs + 2.0
+    fbox = np.zeros((R, C), np.float32)
+    resid_vals, pieces = [], []
+    edges = np.diff(np.pad(need.astype(np.int8), ((0, 0), (1, 1))), axis=1)
+    run_row, run_a = np.nonzero(edges == 1)
+    _, run_b = np.nonzero(edges == -1)
+    halo = 12                                         # room for the σ = 1 and σ = 2 blurs
+    # The light, the distance and the mid level, brought to full size together (one remap).
+    fields = np.ascontiguousarray(np.dstack([seg.light[s0:s1, t0:t1], sd, mid]), dtype=np.float32)
+    sx, sy = int(shift[0]), int(shift[1])
+    for j, a, b in zip(run_row, run_a, run_b):        # a few runs per row of tiles
+        # Each run's rows reach one row into the next row of tiles, so that the iso-lines of
+        # neighbouring runs meet at the same points on the row they share.
+        ra, rb, ca, cb = j * _TILE, min(R, (j + 1) * _TILE + 1), a * _TILE, min(C, b * _TILE)
+        ya, yb = max(0, r0 + ra - halo), min(H, r0 + rb + halo)
+        xa, xb = max(0, c0 + ca - halo), min(W, c0 + cb + halo)
+        light, sdp, midp = np.moveaxis(seg.field_in(fields, ya - sy, yb - sy, xa - sx, xb - sx), 2, 0)
+        fp = cv2.GaussianBlur(as_unit(gray[ya:yb, xa:xb]) / light, (0, 0), _EDGE_SIGMA)
+        inside = (slice(r0 + ra - ya, r0 + rb - ya), slice(c0 + ca - xa, c0 + cb - xa))
+        fi, sdi = fp[inside], sdp[inside]
+        band = np.abs(sdi) <= band_r
+        clean = np.where(band, fi - midp[inside], np.where(sdi > 0, c_in, c_out)).astype(np.float64)
+        pieces += [c + (ra, ca) for c in find_contours(clean, 0.0)]
+        fbox[ra:rb, ca:cb] = fi
+        resid = (fp - cv2.GaussianBlur(fp, (0, 0), 2.0))[inside]
+        resid_vals.append(resid[~band].ravel()[::7])
+    offset = np.array([c0, r0], dtype=float)
+    raw = _join(pieces)
     rings = []
     for c in raw:
         if len(c) < 8 or not np.allclose(c[0], c[-1]):
@@ -133,23 +178,24 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
         raise MeasurementError(f"the traced boundary is not a valid section ({e}); look at the review picture "
                                "(--overlay) and give --seed X,Y on the member") from None
 
-    # Edge statistics along the traced boundary (in the box's pixels).
-    gy, gx = np.gradient(f)
-    pts = np.vstack([outer_ring] + holes) - offset
-    grad = _sample(np.hypot(gx, gy), pts)
+    # Edge statistics along the traced boundary.
+    pts = np.vstack([outer_ring] + holes)
+    local = pts - offset
+    grad = np.hypot(_sample(fbox, local + (1.0, 0.0)) - _sample(fbox, local - (1.0, 0.0)),
+                    _sample(fbox, local + (0.0, 1.0)) - _sample(fbox, local - (0.0, 1.0))) / 2.0
     g_med = float(np.median(grad))
     contrast = abs(level_in - level_out)
     if g_med <= 0 or contrast < 0.02:
         raise MeasurementError("the member hardly stands out from its surroundings (contrast "
                                f"{100 * contrast:.1f} %); photograph it against a contrasting ground")
-    noise = _noise(f, inner, outer)
+    noise = _robust_spread(np.concatenate(resid_vals) if resid_vals else np.zeros(0))
     blur = contrast / (math.sqrt(2 * math.pi) * g_med)
     scatter_px = noise / g_med
     # What is left of the light's unevenness after the local levels: their scatter along the
     # boundary, over a longer window, as a share of the gradient (a systematic offset).
-    wide = (8 * band_r + 1,) * 2
-    mid_wide = cv2.blur(mid.astype(np.float32), wide)
-    drift = float(np.std(_sample(mid, pts) - _sample(mid_wide, pts))) / g_med
+    wide = (_odd((8 * band_r + 1) * fs),) * 2
+    mid_wide = cv2.blur(mid, wide)
+    drift = float(np.std(seg.field_at(mid, pts - shift) - seg.field_at(mid_wide, pts - shift))) / g_med
     offset_px = math.hypot(drift, _OFFSET_FLOOR_PX)
     centre = outer_ring.mean(axis=0)
     s = plane.mm_per_px(centre)
@@ -158,7 +204,52 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
             "mm_per_px": s, "offset_mm": offset_px * s, "scatter_mm": scatter_px * s,
             "correlation_mm": math.hypot(blur, _EDGE_SIGMA) * s}
     return Trace(section=section, rings_px=[outer_ring] + holes, edge=edge,
-                 pixel_check=_pixel_moments(full_mask, plane, offset))
+                 pixel_check=_pixel_moments(seg, plane, (r0, r1, c0, c1)))
+
+
+def coarser_section(trace: Trace, plane: PlaneMap, tolerance_px: float) -> Section:
+    """The traced section with its rings simplified within `tolerance_px` (instead of 0.1 px):
+    fewer vertices for the Monte Carlo draws, whose spread does not depend on them to the
+    digits reported."""
+    import shapely
+
+    rings = []
+    for r in trace.rings_px:
+        simple = shapely.Polygon(r).simplify(tolerance_px, preserve_topology=True)
+        rings.append(np.asarray(simple.exterior.coords)[:-1] if simple.geom_type == "Polygon" and
+                     len(simple.exterior.coords) > 3 else r)
+    return Section(plane.to_mm(rings[0]), [plane.to_mm(h) for h in rings[1:]])
+
+
+def _join(pieces: list[np.ndarray]) -> list[np.ndarray]:
+    """Closed iso-lines from the pieces found run by run: an open piece ends where the next
+    begins, on the row two runs share (marching squares orients every piece alike)."""
+    ends_meet = [len(p) > 2 and float(np.abs(p[0] - p[-1]).max()) < 1e-9 for p in pieces]
+    closed = [p for p, shut in zip(pieces, ends_meet) if shut]
+    open_ = [p for p, shut in zip(pieces, ends_meet) if not shut]
+    if not open_:
+        return closed
+    starts = np.array([p[0] for p in open_])
+    ends = np.array([p[-1] for p in open_])
+    gap = np.hypot(*(ends[:, None, :] - starts[None, :, :]).transpose(2, 0, 1))
+    nxt = np.where(gap.min(axis=1) < 1e-3, gap.argmin(axis=1), -1)
+    used = np.zeros(len(open_), bool)
+    for i in range(len(open_)):                       # a loop over pieces, a few per run
+        if used[i]:
+            continue
+        chain, k = [], i
+        while k >= 0 and not used[k]:
+            used[k] = True
+            chain.append(open_[k] if not chain else open_[k][1:])
+            k = nxt[k]
+        if k == i:                                    # back where it began: a ring
+            closed.append(np.vstack(chain))
+    return closed
+
+
+def _odd(size: float) -> int:
+    """The odd window size nearest `size`, at least 3."""
+    return max(3, int(round(size)) | 1)
 
 
 def _sample(img: np.ndarray, pts: np.ndarray) -> np.ndarray:
@@ -166,29 +257,28 @@ def _sample(img: np.ndarray, pts: np.ndarray) -> np.ndarray:
     import cv2
 
     m = pts.astype(np.float32)
-    return cv2.remap(img.astype(np.float32), m[:, 0:1], m[:, 1:2], cv2.INTER_LINEAR,
+    return cv2.remap(img.astype(np.float32, copy=False), m[:, 0:1], m[:, 1:2], cv2.INTER_LINEAR,
                      borderMode=cv2.BORDER_REPLICATE).ravel()
 
 
-def _noise(f: np.ndarray, inner: np.ndarray, outer: np.ndarray) -> float:
-    """Noise of the edge image: robust spread of its fine residual in flat regions."""
-    import cv2
-
-    resid = f - cv2.GaussianBlur(f, (0, 0), 2.0)
-    vals = np.concatenate([resid[inner].ravel()[::7], resid[outer].ravel()[::7]])
+def _robust_spread(vals: np.ndarray) -> float:
+    """Noise of the edge image: robust spread (1.4826 MAD) of its fine residual off the edge."""
     if not len(vals):
         return 0.0
     return float(1.4826 * np.median(np.abs(vals - np.median(vals))))
 
 
-def _pixel_moments(mask: np.ndarray, plane: PlaneMap, offset: np.ndarray) -> dict:
-    """A and centroidal second moments summed over pixels, each a small area at its place
-    (`mask` covers the photo from column, row `offset`)."""
+def _pixel_moments(seg: Segmentation, plane: PlaneMap, box: tuple[int, int, int, int]) -> dict:
+    """A and centroidal second moments summed over the mask's pixels, each a small area at its
+    place, over the photo's rows r0:r1 and columns c0:c1 (`box`)."""
+    r0, r1, c0, c1 = box
+    fs2 = 1.0 / seg.step ** 2
     # Every k-th pixel of every k-th row, each standing for k x k pixels: plenty for a check.
-    k = max(1, int(math.sqrt(mask.sum() / 30_000)))
-    ys, xs = np.nonzero(mask[k // 2::k, k // 2::k])
+    k = max(1, int(math.sqrt(seg.mask.sum() / fs2 / 30_000)))
+    gx, gy = np.meshgrid(np.arange(c0 + k // 2, c1, k), np.arange(r0 + k // 2, r1, k))
+    grid = np.column_stack([gx.ravel(), gy.ravel()]).astype(np.float64)
+    pts = grid[seg.field_at(seg.mask.astype(np.float32), grid) > 0.5]
     step = k * k
-    pts = np.column_stack([xs * k + k // 2, ys * k + k // 2]).astype(np.float64) + offset
     mm = plane.to_mm(pts)
     e = 0.5
     dx = plane.to_mm(pts + (e, 0.0)) - mm

@@ -210,7 +210,7 @@ def calibrate(paths: Sequence[str | Path], cols: int, rows: int, square: float) 
     import cv2
 
     from .load import load_photo
-    from .scale import find_corners
+    from .scale import find_corners, to_8bit
 
     size = None
     found_px, found_paths, views = [], [], []
@@ -224,8 +224,7 @@ def calibrate(paths: Sequence[str | Path], cols: int, rows: int, square: float) 
         elif (w, h) != size:
             raise InputError(f"{path}: {w} x {h} px, but the first photo is {size[0]} x {size[1]}; a profile is for "
                              "one camera at one image size")
-        img8 = np.clip(photo.gray * 255.0 + 0.5, 0, 255).astype(np.uint8)
-        c = find_corners(img8, cols, rows)
+        c = find_corners(to_8bit(photo.levels), cols, rows)
         views.append(CalibrationView(str(path), c is not None))
         if c is not None:
             found_px.append(c.astype(np.float32).reshape(-1, 1, 2))

@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
 
 import numpy as np
@@ -10,7 +11,7 @@ import numpy as np
 from ..errors import InputError
 from ..files import read_input, sha256_of
 
-__all__ = ["Photo", "load_photo", "MAX_PIXELS"]
+__all__ = ["Photo", "load_photo", "as_unit", "MAX_PIXELS"]
 
 #: Largest image accepted [pixels]; larger ones are refused before they are decoded.
 MAX_PIXELS = 120_000_000
@@ -24,27 +25,53 @@ class Photo:
 
     Attributes
     ----------
-    gray : ndarray (H, W) float32
-        Luminance, 0 to 1 (8 and 16 bit inputs alike).
-    color : ndarray (H, W, 3) uint8
-        BGR picture for the review overlay.
+    levels : ndarray (H, W)
+        Luminance as decoded: uint8 for 8-bit files (0 to 255), float32 0 to 1 otherwise. The
+        measuring steps read it where they need it (a reduced copy, the member's box), so a large
+        photo is not converted whole.
     alpha : ndarray (H, W) bool or None
         Where a transparent image is opaque.
     dpi : float or None
         The resolution stored in the file (scans), if any.
     path, sha256 : provenance.
+    gray : ndarray (H, W) float32
+        Luminance, 0 to 1 (8 and 16 bit inputs alike), made on first use.
+    color : ndarray (H, W, 3) uint8
+        BGR picture for the review overlay, decoded on first use.
     """
 
-    gray: np.ndarray
-    color: np.ndarray
+    levels: np.ndarray
     alpha: np.ndarray | None
     dpi: float | None
     path: str
     sha256: str
+    _color: np.ndarray | None = field(default=None, repr=False)
+    _data: bytes | None = field(default=None, repr=False)
 
     @property
     def shape(self) -> tuple[int, int]:
-        return self.gray.shape
+        return self.levels.shape
+
+    @cached_property
+    def gray(self) -> np.ndarray:
+        return as_unit(self.levels)
+
+    @cached_property
+    def color(self) -> np.ndarray:
+        if self._color is not None:
+            return self._color
+        import cv2
+
+        return cv2.imdecode(np.frombuffer(self._data, np.uint8), cv2.IMREAD_COLOR)
+
+
+def as_unit(img: np.ndarray) -> np.ndarray:
+    """Grey levels as float32 0 to 1: uint8 divided by 255, floats as they are."""
+    if img.dtype == np.uint8:
+        out = img.astype(np.float32)
+        out *= np.float32(1.0 / 255.0)
+        return out
+    return img.astype(np.float32, copy=False)
 
 
 def load_photo(path: str | Path, *, max_pixels: int = MAX_PIXELS) -> Photo:
@@ -75,8 +102,7 @@ def load_photo(path: str | Path, *, max_pixels: int = MAX_PIXELS) -> Photo:
         dpi = im.info.get("dpi")
         fast = _decode_8bit(data) if im.mode in ("RGB", "L", "YCbCr", "CMYK") and im.format in _FAST else None
         if fast is not None:
-            gray, color = fast
-            return Photo(gray=gray, color=color, alpha=None, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data))
+            return Photo(levels=fast, alpha=None, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data), _data=data)
         im = ImageOps.exif_transpose(im)
         arr, alpha = _to_array(im)
     except InputError:
@@ -86,7 +112,7 @@ def load_photo(path: str | Path, *, max_pixels: int = MAX_PIXELS) -> Photo:
     except (OSError, ValueError, SyntaxError) as e:
         raise InputError(f"{p}: not a readable image ({e}); use a JPEG, PNG, TIFF, WebP or BMP file") from None
     gray, color = _gray_and_color(arr)
-    return Photo(gray=gray, color=color, alpha=alpha, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data))
+    return Photo(levels=gray, alpha=alpha, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data), _color=color)
 
 
 def _dpi(dpi) -> float | None:
@@ -97,16 +123,12 @@ def _dpi(dpi) -> float | None:
     return v if v > 1 else None
 
 
-def _decode_8bit(data: bytes) -> tuple[np.ndarray, np.ndarray] | None:
-    """OpenCV's decoder for 8-bit files without alpha (faster; it applies the EXIF orientation)."""
+def _decode_8bit(data: bytes) -> np.ndarray | None:
+    """OpenCV's decoder, straight to grey, for 8-bit files without alpha (faster; it applies
+    the EXIF orientation). The colour picture is decoded only if a picture is drawn."""
     import cv2
 
-    color = cv2.imdecode(np.frombuffer(data, np.uint8), cv2.IMREAD_COLOR)
-    if color is None:
-        return None
-    gray = cv2.cvtColor(color, cv2.COLOR_BGR2GRAY).astype(np.float32)
-    gray *= 1.0 / 255.0
-    return gray, color
+    return cv2.imdecode(np.frombuffer(data, np.uint8), cv2.IMREAD_GRAYSCALE)
 
 
 def _to_array(im) -> tuple[np.ndarray, np.ndarray | None]:

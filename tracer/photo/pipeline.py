@@ -14,11 +14,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError, MeasurementError
+from ..errors import GeometryError, InputError, MeasurementError
 from ..measurement import Measurement
 from ..uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError, TiltAllowance
 from ..units import parse_length
-from .contour import Trace, trace_boundary
+from .contour import Trace, coarser_section, trace_boundary
 from .lens import LensProfile, read_profile
 from .load import Photo, load_photo
 from .ruler import MIN_TICKS, RulerReading, pitch_check
@@ -36,6 +36,9 @@ DEFAULT_TEXTURE_MM = 2.0
 # Differences between the pixel and contour moments beyond this many times their expected size
 # (half a pixel all round) are reported.
 _CHECK_FACTOR = 3.0
+# The Monte Carlo draws perturb a copy of the trace simplified within this many pixels (the
+# trace itself: 0.1 px); the reported u is the linear one, checked by the draws.
+_MC_SIMPLIFY_PX = 0.25
 
 
 @dataclass(frozen=True)
@@ -107,7 +110,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         profile = (lens if isinstance(lens, LensProfile) else read_profile(lens)).for_image(*photo.shape[::-1])
     if target is not None:
         cols, rows, square = parse_target(target)
-        plane = map_from_target(photo.gray, cols, rows, square, lens=profile)
+        plane = map_from_target(photo.levels, cols, rows, square, lens=profile)
     elif scale is not None:
         pts, length = parse_two_points(scale)
         plane = map_from_points(pts, length, max_tilt=max_tilt, lens=profile)
@@ -149,15 +152,15 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     texture_px = max(2.0, texture_mm * px_per_mm)
     if plane.record["method"] == "pixels":        # no scale yet: texture as a share of the photo
         texture_px = max(2.0, 0.002 * float(np.hypot(*photo.shape)))
-    seg = segment_member(photo.gray, texture_px=texture_px, seed=seed_xy, keep_out=plane.keep_out,
+    seg = segment_member(photo.levels, texture_px=texture_px, seed=seed_xy, keep_out=plane.keep_out,
                          alpha=photo.alpha)
     smoothing = max(1.0, 0.25 * texture_px)
-    trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
+    trace = trace_boundary(seg, photo.levels, plane, smoothing_px=smoothing)
     if plane.record["method"] == "ruler":
         # The scale where the member lies along the ruler (its period changes under perspective).
         plane = map_from_ruler(reading, pitch_mm, at_px=trace.rings_px[0].mean(axis=0), max_tilt=max_tilt,
                                ruler_class=ruler_class)
-        trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
+        trace = trace_boundary(seg, photo.levels, plane, smoothing_px=smoothing)
         warnings += list(plane.warnings)
     if known_dim is not None:
         which, length = known_dim
@@ -166,7 +169,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         if plane.record["method"] == "pixels":
             plane = _known_plane(which, length, measured, max_tilt, profile)
             warnings += plane.warnings
-            trace = trace_boundary(seg, photo.gray, plane, smoothing_px=smoothing)
+            trace = trace_boundary(seg, photo.levels, plane, smoothing_px=smoothing)
         else:
             diff = 100.0 * (measured / length - 1.0)
             plane.record["known_check"] = {which: length, "measured_mm": measured, "difference_percent": diff}
@@ -203,8 +206,13 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     source = {"kind": "photo", "path": str(p), "sha256": photo.sha256, "image_px": list(photo.shape[::-1]),
               "scale": plane.record, "edge": {k: float(v) for k, v in edge.items()},
               "texture_mm": texture_mm}
+    model = ErrorModel(tuple(comps))
+    try:
+        proxy = (coarser_section(trace, plane, _MC_SIMPLIFY_PX), model)
+    except GeometryError:
+        proxy = None                                    # the trace itself serves
     measurement = Measurement(section=trace.section, name=name or p.stem, source=source,
-                              error_model=ErrorModel(tuple(comps)), warnings=tuple(warnings))
+                              error_model=model, warnings=tuple(warnings), mc_proxy=proxy)
     return PhotoMeasurement(measurement=measurement, photo=photo, plane=plane, segmentation=seg, trace=trace)
 
 

@@ -19,11 +19,15 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError, MeasurementError
+from .load import as_unit
 
 __all__ = ["Segmentation", "segment_member"]
 
-# Pixels of the reduced copy the mask is found on.
-_WORK_PIXELS = 2_000_000
+# Pixels of the reduced copy the mask is found on (it only has to find the edge's band: the
+# edge itself is traced at full resolution).
+_WORK_PIXELS = 600_000
+# Long side of the copy the uneven light is estimated on [px] (light varies slowly).
+_LIGHT_PX = 128.0
 
 
 @dataclass(frozen=True)
@@ -48,6 +52,9 @@ class Segmentation:
         The uneven light divided out (1 where even), on the working copy.
     shape : (H, W)
         The full photo's size.
+    step : int
+        Full-size pixels per pixel of the working copy (it is the photo averaged over step x
+        step blocks, the last rows and columns beyond a whole block left out).
     """
 
     mask: np.ndarray
@@ -56,13 +63,13 @@ class Segmentation:
     member_is_bright: bool
     light: np.ndarray
     shape: tuple[int, int] = (0, 0)
+    step: int = 1
 
     def box(self, pad: int = 0) -> tuple[int, int, int, int]:
         """Rows r0:r1 and columns c0:c1 of the full photo that hold the member, `pad` px wider."""
         H, W = self.shape
-        h, w = self.mask.shape
         ys, xs = np.nonzero(self.mask)
-        sy, sx = H / h, W / w
+        sy = sx = self.step
         r0 = int(np.floor(ys.min() * sy)) - int(np.ceil(sy)) - pad
         r1 = int(np.ceil((ys.max() + 1) * sy)) + int(np.ceil(sy)) + pad
         c0 = int(np.floor(xs.min() * sx)) - int(np.ceil(sx)) - pad
@@ -71,34 +78,64 @@ class Segmentation:
 
     def mask_in(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
         """The mask at full resolution over rows r0:r1, columns c0:c1 (bilinear, as cv2.resize)."""
-        return self._full(self.mask.astype(np.float32), r0, r1, c0, c1) > 0.5
+        return self.field_in(self.mask.astype(np.float32), r0, r1, c0, c1) > 0.5
 
     def light_in(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
         """The uneven light at full resolution over rows r0:r1, columns c0:c1."""
-        return self._full(self.light.astype(np.float32), r0, r1, c0, c1)
+        return self.field_in(self.light, r0, r1, c0, c1)
 
-    def _full(self, small: np.ndarray, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+    def field_in(self, small: np.ndarray, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        """A field of the working copy's size, brought to full resolution over rows r0:r1,
+        columns c0:c1 (bilinear, with cv2.resize's pixel-centre mapping)."""
         import cv2
 
-        H, W = self.shape
-        h, w = small.shape
-        if (h, w) == (H, W):
+        k = self.step
+        if k == 1:
             return small[r0:r1, c0:c1]
-        # cv2.resize's pixel-centre mapping, evaluated on the box alone.
-        mx = ((np.arange(c0, c1, dtype=np.float32) + 0.5) * (w / W) - 0.5)[None, :]
-        my = ((np.arange(r0, r1, dtype=np.float32) + 0.5) * (h / H) - 0.5)[:, None]
-        mx, my = np.broadcast_to(mx, (r1 - r0, c1 - c0)), np.broadcast_to(my, (r1 - r0, c1 - c0))
-        return cv2.remap(small, np.ascontiguousarray(mx), np.ascontiguousarray(my), cv2.INTER_LINEAR,
-                         borderMode=cv2.BORDER_REPLICATE)
+        # Enlarge the working copy's pixels around the box by k (cv2.resize keeps the pixel
+        # centres where field_at puts them), a pixel of margin so that no edge is clamped.
+        h, w = small.shape[:2]
+        s0, s1 = max(0, r0 // k - 1), min(h, (r1 - 1) // k + 2)
+        t0, t1 = max(0, c0 // k - 1), min(w, (c1 - 1) // k + 2)
+        big = cv2.resize(small[s0:s1, t0:t1].astype(np.float32, copy=False), ((t1 - t0) * k, (s1 - s0) * k),
+                         interpolation=cv2.INTER_LINEAR)
+        out = big[r0 - s0 * k:r1 - s0 * k, c0 - t0 * k:c1 - t0 * k]
+        if out.shape[:2] != (r1 - r0, c1 - c0):        # past the copy's last whole block: as field_at
+            mx = ((np.arange(c0, c1, dtype=np.float32) + 0.5) / k - 0.5)[None, :]
+            my = ((np.arange(r0, r1, dtype=np.float32) + 0.5) / k - 0.5)[:, None]
+            out = self._remap(small, np.repeat(mx, r1 - r0, axis=0), np.repeat(my, c1 - c0, axis=1))
+        return out
+
+    def field_at(self, small: np.ndarray, xy: np.ndarray) -> np.ndarray:
+        """A field of the working copy's size, sampled (bilinear) at full-resolution points (N, 2)
+        (column, row)."""
+        k = np.float32(1.0 / self.step)
+        p = np.asarray(xy, np.float32).reshape(-1, 2)
+        n = len(p)
+        cols = min(max(n, 1), 4096)                    # cv2.remap takes maps under 32767 a side
+        q = np.zeros((-(-n // cols) * cols, 2), np.float32)
+        q[:n] = p
+        mx = ((q[:, 0] + 0.5) * k - 0.5).reshape(-1, cols)
+        my = ((q[:, 1] + 0.5) * k - 0.5).reshape(-1, cols)
+        return self._remap(small, mx, my).ravel()[:n]
+
+    @staticmethod
+    def _remap(small: np.ndarray, mx: np.ndarray, my: np.ndarray) -> np.ndarray:
+        import cv2
+
+        return cv2.remap(small.astype(np.float32, copy=False), np.ascontiguousarray(mx, np.float32),
+                         np.ascontiguousarray(my, np.float32), cv2.INTER_LINEAR, borderMode=cv2.BORDER_REPLICATE)
 
 
 def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, float] | None = None,
-                   keep_out: list[np.ndarray] = (), alpha: np.ndarray | None = None) -> Segmentation:
+                   keep_out: list[np.ndarray] = (), alpha: np.ndarray | None = None,
+                   _given_seed: tuple[float, float] | None = None) -> Segmentation:
     """Find the member in `gray` (H, W floats 0..1).
 
     Parameters
     ----------
     gray : ndarray
+        Grey levels, uint8 (0..255) or float 0..1.
     texture_px : float
         Cracks and specks narrower than this [px] are texture, not edges or holes.
     seed : (x, y), optional
@@ -117,6 +154,7 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
     """
     import cv2
 
+    given = _given_seed or seed                    # as the user wrote it, for the messages
     H0, W0 = gray.shape
     # Work on a reduced copy of a large photo: the mask only has to find the edge's band; the
     # edge itself is traced at full resolution.
@@ -124,19 +162,26 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
         raise InputError(f"--seed {seed[0]:g},{seed[1]:g} lies outside the {W0} x {H0} image")
     f = min(1.0, (_WORK_PIXELS / (H0 * W0)) ** 0.5)
     f = max(f, min(1.0, 3.0 / texture_px))          # texture stays at least 3 px wide
-    if f < 1.0:
-        small = cv2.resize(gray.astype(np.float32), (max(2, int(W0 * f)), max(2, int(H0 * f))),
-                           interpolation=cv2.INTER_AREA)
-        seg = segment_member(small, texture_px=texture_px * f,
-                             seed=None if seed is None else (seed[0] * f, seed[1] * f),
-                             keep_out=[np.asarray(p) * f for p in keep_out],
-                             alpha=None if alpha is None else cv2.resize(alpha.astype(np.uint8), small.shape[::-1],
+    k = int(1.0 / f)                                # whole blocks: the fast exact average
+    if k > 1:
+        src = gray if gray.dtype == np.uint8 else gray.astype(np.float32)
+        h, w = H0 // k, W0 // k
+        small = as_unit(cv2.resize(src[:h * k, :w * k], (w, h), interpolation=cv2.INTER_AREA))
+
+        def to_small(p):
+            return (np.asarray(p, float) + 0.5) / k - 0.5
+
+        seg = segment_member(small, texture_px=texture_px / k,
+                             seed=None if seed is None else tuple(np.clip(to_small(seed), 0, [w - 1, h - 1])),
+                             _given_seed=seed,
+                             keep_out=[to_small(p) for p in keep_out],
+                             alpha=None if alpha is None else cv2.resize(alpha[:h * k, :w * k].astype(np.uint8), (w, h),
                                                                           interpolation=cv2.INTER_NEAREST).astype(bool))
         return Segmentation(mask=seg.mask, smooth=seg.smooth, threshold=seg.threshold,
-                            member_is_bright=seg.member_is_bright, light=seg.light, shape=(H0, W0))
+                            member_is_bright=seg.member_is_bright, light=seg.light, shape=(H0, W0), step=k)
     h, w = H0, W0
     sigma = max(1.0, 0.25 * texture_px)
-    smooth = cv2.GaussianBlur(gray.astype(np.float32), (0, 0), sigma)
+    smooth = cv2.GaussianBlur(as_unit(gray), (0, 0), sigma)
     refs = np.zeros((h, w), np.uint8)
     for poly in keep_out:
         cv2.fillPoly(refs, [np.round(poly).astype(np.int32)], 1)
@@ -145,7 +190,7 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
         usable &= alpha
     light = _light(smooth, usable)
     smooth = smooth / light
-    t = _otsu(smooth[usable])
+    t = _otsu(smooth[::2, ::2][usable[::2, ::2]])     # every other pixel: the same histogram
     bright = smooth > t
     r = max(1, int(round(texture_px / 2)))
     disk = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * r + 1, 2 * r + 1))
@@ -169,7 +214,7 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
             lab = labels[int(sy), int(sx)]
             x, y, bw, bh, _ = stats[lab] if lab else (0, 0, w, h, 0)
             if lab == 0 or x == 0 or y == 0 or x + bw == w or y + bh == h:
-                raise MeasurementError(f"--seed {seed[0]:g},{seed[1]:g} is on the background, not on a member "
+                raise MeasurementError(f"--seed {given[0]:g},{given[1]:g} is on the background, not on a member "
                                        "(its region reaches the image border); pick a point well inside the "
                                        "cut face, and photograph the whole face")
             found.append((stats[lab][4], labels == lab, cls))
@@ -177,7 +222,9 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
         for k in range(1, n):
             x, y, bw, bh, area = stats[k]
             touches = x == 0 or y == 0 or x + bw == w or y + bh == h
-            if area >= 0.002 * h * w and not touches and not _looks_like_ruler(labels == k):
+            if (area >= 0.002 * h * w and not touches and not _looks_like_ruler(labels == k)
+                    and not _looks_like_board(labels[y:y + bh, x:x + bw] == k,
+                                              (bright if cls else ~bright)[y:y + bh, x:x + bw])):
                 found.append((area, labels == k, cls))
             elif touches and cls != ground_is_bright and area >= 0.002 * h * w:
                 cut_off = True
@@ -215,7 +262,7 @@ def _light(img: np.ndarray, usable: np.ndarray) -> np.ndarray:
     import cv2
 
     h, w = img.shape
-    f = min(1.0, 512.0 / max(h, w))
+    f = min(1.0, _LIGHT_PX / max(h, w))
     small = cv2.resize(img, (max(2, int(w * f)), max(2, int(h * f))), interpolation=cv2.INTER_AREA)
     use = cv2.resize(usable.astype(np.uint8), small.shape[::-1], interpolation=cv2.INTER_NEAREST).astype(bool)
     sigma = max(small.shape) / 8.0
@@ -243,9 +290,11 @@ def _inside(seed: tuple[float, float], w: int, h: int) -> bool:
 
 def _otsu(values: np.ndarray) -> float:
     """Otsu's threshold of values in 0..1 [1]."""
-    hist, edges = np.histogram(values, bins=512, range=(0.0, 1.0))
+    bins = 512
+    idx = (np.asarray(values, np.float32) * np.float32(bins)).astype(np.intp)
+    hist = np.bincount(np.clip(idx, 0, bins - 1), minlength=bins)      # np.histogram's bins, faster
     p = hist.astype(np.float64) / max(hist.sum(), 1)
-    centres = 0.5 * (edges[:-1] + edges[1:])
+    centres = (np.arange(bins) + 0.5) / bins
     w0 = np.cumsum(p)
     mu = np.cumsum(p * centres)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -257,14 +306,59 @@ def _fill_small_holes(region: np.ndarray, *, min_area: float) -> np.ndarray:
     """Fill the holes of `region` smaller than `min_area` [px²]; larger ones are real openings."""
     import cv2
 
-    holes = (~region).astype(np.uint8)
+    ys, xs = np.nonzero(region.any(axis=1))[0], np.nonzero(region.any(axis=0))[0]
+    if not len(ys):
+        return region
+    # Within the region's box and a pixel round it: what reaches the frame is outside.
+    r0, r1, c0, c1 = max(0, ys[0] - 1), ys[-1] + 2, max(0, xs[0] - 1), xs[-1] + 2
+    crop = region[r0:r1, c0:c1]
+    holes = (~crop).astype(np.uint8)
     n, labels, stats, _ = cv2.connectedComponentsWithStats(holes, connectivity=4)
-    h, w = region.shape
+    h, w = crop.shape
     x, y, bw, bh, area = stats.T
     outside = (x == 0) | (y == 0) | (x + bw == w) | (y + bh == h)
     fill = ~outside & (area < min_area)
     fill[0] = False                                   # label 0 is the region itself
-    return region | fill[labels]
+    out = region.copy()
+    out[r0:r1, c0:c1] |= fill[labels]
+    return out
+
+
+def _looks_like_board(region: np.ndarray, same: np.ndarray) -> bool:
+    """A checkerboard target (its sheet, or some of its squares run together at their corners).
+
+    `same` is the region's class before the texture was closed over. Either the region's own
+    pixels or the other class's inside its outline fall into six or more alike, squarish
+    patches, each as far from its nearest neighbour as a diagonal step of a board (about √2
+    times their side). The cells of a multi-cell hollow section sit closer (side plus a wall),
+    and a member's own pixels are one patch: both are kept.
+    """
+    import cv2
+
+    filled = _fill_small_holes(region, min_area=np.inf)
+    cross = np.ones((3, 3), np.uint8)               # squares meeting at a corner come apart
+    return any(_squares_in_a_lattice(cv2.erode(m.astype(np.uint8), cross))
+               for m in (region & same, filled & ~same))
+
+
+def _squares_in_a_lattice(patches: np.ndarray) -> bool:
+    import cv2
+
+    n, labels, stats, cents = cv2.connectedComponentsWithStats(patches, connectivity=4)
+    x, y, bw, bh, area = stats.T
+    keep = area >= 9
+    keep[0] = False
+    if keep.sum() < 6:
+        return False
+    med = float(np.median(area[keep]))
+    alike = keep & (area > med / 1.6) & (area < med * 1.6) & (bw < 1.7 * bh) & (bh < 1.7 * bw)
+    if alike.sum() < 6:
+        return False
+    c = cents[alike]
+    d = np.hypot(*(c[:, None, :] - c[None, :, :]).transpose(2, 0, 1))
+    np.fill_diagonal(d, np.inf)
+    ratio = float(np.median(d.min(axis=1))) / np.sqrt(med)
+    return 1.25 <= ratio <= 1.8
 
 
 def _looks_like_ruler(region: np.ndarray) -> bool:
@@ -285,5 +379,5 @@ def _looks_like_ruler(region: np.ndarray) -> bool:
         return False
     if defects is None:
         return False
-    deep = np.count_nonzero(defects[:, 0, 3] / 256.0 > 1.0)
+    deep = np.count_nonzero(defects.reshape(-1, 4)[:, 3] / 256.0 > 1.0)
     return deep >= 15
