@@ -1,16 +1,17 @@
 """Sub-pixel boundary rings of the member, mapped to millimetres, with their uncertainty.
 
 The boundary is the iso-line of the smoothed image at the level halfway between the member's and
-the ground's grey level, found by marching squares to sub-pixel precision [1]_ in a band along
-the mask's edge (elsewhere the image is replaced by the two levels, so texture inside the member
-and on the ground draws no lines). For a blurred straight edge the half-level line is the true
-edge whatever the blur. Rings are simplified within 0.1 px, mapped through the plane map, and
-this is the one place where image rows (down) turn into y (up).
+the ground's grey level, found by marching squares to sub-pixel precision [1]_ (see
+:mod:`tracer.photo.isolines`) in a band along the mask's edge (elsewhere the image is replaced by
+the two levels, so texture inside the member and on the ground draws no lines). Only the tiles
+the band passes through are read at full resolution. For a blurred straight edge the half-level
+line is the true edge whatever the blur. Rings are simplified within 0.1 px, mapped through the
+plane map, and this is the one place where image rows (down) turn into y (up).
 
 The edge uncertainty comes from the image: the grey-level gradient across the edge and the
-image noise give each point's independent scatter (correlated over the smoothing length), and
-the variation of the two levels along the boundary (uneven light) a systematic offset of the
-whole boundary.
+image noise just off it give each point's independent scatter (correlated over the smoothing
+length), and the variation of the two levels along the boundary (uneven light) a systematic
+offset of the whole boundary.
 
 References
 ----------
@@ -28,6 +29,7 @@ import numpy as np
 
 from ..errors import GeometryError, MeasurementError
 from ..geometry import Section
+from .isolines import Isolines
 from .load import as_unit
 from .scale import PlaneMap
 from .segment import Segmentation
@@ -77,7 +79,6 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
     """
     import cv2
     import shapely
-    from skimage.measure import find_contours
 
     band_r = int(math.ceil(3 * smoothing_px + 3))     # past the mask's own smoothing
     H, W = seg.shape
@@ -122,19 +123,21 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
                                (r0 + np.minimum((gy.ravel() + 0.5) * _TILE, R - 0.5))])
     sd_c = seg.field_at(sd, centres - shift).reshape(ty, tx)
     need = np.abs(sd_c) <= band_r + 0.75 * _TILE + 2.0 / fs + 2.0
-    fbox = np.zeros((R, C), np.float32)
-    resid_vals, pieces = [], []
+    resid_vals, blocks = [], []
+    block_of = np.full((ty, tx), -1)
+    lines = Isolines(width=C)
     edges = np.diff(np.pad(need.astype(np.int8), ((0, 0), (1, 1))), axis=1)
     run_row, run_a = np.nonzero(edges == 1)
     _, run_b = np.nonzero(edges == -1)
     halo = 12                                         # room for the σ = 1 and σ = 2 blurs
-    # The light, the distance and the mid level, brought to full size together (one remap).
+    # The light, the distance and the mid level, brought to full size together.
     fields = np.ascontiguousarray(np.dstack([seg.light[s0:s1, t0:t1], sd, mid]), dtype=np.float32)
     sx, sy = int(shift[0]), int(shift[1])
-    for j, a, b in zip(run_row, run_a, run_b):        # a few runs per row of tiles
-        # Each run's rows reach one row into the next row of tiles, so that the iso-lines of
-        # neighbouring runs meet at the same points on the row they share.
-        ra, rb, ca, cb = j * _TILE, min(R, (j + 1) * _TILE + 1), a * _TILE, min(C, b * _TILE)
+    for j0, j1, a, b in _stacked(run_row, run_a, run_b):   # a few blocks of tiles
+        # A block owns the cells whose top-left pixel is in its tiles; it reads one more row
+        # and column of pixels for their far corners.
+        ra, ca = j0 * _TILE, a * _TILE
+        rb, cb = min(R, j1 * _TILE + 1), min(C, b * _TILE + 1)
         ya, yb = max(0, r0 + ra - halo), min(H, r0 + rb + halo)
         xa, xb = max(0, c0 + ca - halo), min(W, c0 + cb + halo)
         light, sdp, midp = np.moveaxis(seg.field_in(fields, ya - sy, yb - sy, xa - sx, xb - sx), 2, 0)
@@ -142,18 +145,18 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
         inside = (slice(r0 + ra - ya, r0 + rb - ya), slice(c0 + ca - xa, c0 + cb - xa))
         fi, sdi = fp[inside], sdp[inside]
         band = np.abs(sdi) <= band_r
-        clean = np.where(band, fi - midp[inside], np.where(sdi > 0, c_in, c_out)).astype(np.float64)
-        pieces += [c + (ra, ca) for c in find_contours(clean, 0.0)]
-        fbox[ra:rb, ca:cb] = fi
+        clean = np.where(band, fi - midp[inside], np.where(sdi > 0, c_in, c_out))
+        lines.add(clean, ra, ca, min(j1 * _TILE, R - 1) - ra, min(b * _TILE, C - 1) - ca)
+        block_of[j0:j1, a:b] = len(blocks)
+        blocks.append((fp, ya - r0, xa - c0))
         resid = (fp - cv2.GaussianBlur(fp, (0, 0), 2.0))[inside]
         resid_vals.append(resid[~band].ravel()[::7])
     offset = np.array([c0, r0], dtype=float)
-    raw = _join(pieces)
+    raw = lines.rings()
     rings = []
-    for c in raw:
-        if len(c) < 8 or not np.allclose(c[0], c[-1]):
-            continue                                      # open lines cannot bound the member
-        xy = c[:, ::-1]                                   # (row, col) -> (x = col, y = row), in the box
+    for xy in raw:                                        # (x = column, y = row) in the box
+        if len(xy) < 8:
+            continue
         ring = shapely.LinearRing(xy)
         poly = shapely.Polygon(ring)
         if poly.area < (2 * smoothing_px) ** 2:
@@ -180,9 +183,7 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
 
     # Edge statistics along the traced boundary.
     pts = np.vstack([outer_ring] + holes)
-    local = pts - offset
-    grad = np.hypot(_sample(fbox, local + (1.0, 0.0)) - _sample(fbox, local - (1.0, 0.0)),
-                    _sample(fbox, local + (0.0, 1.0)) - _sample(fbox, local - (0.0, 1.0))) / 2.0
+    grad = _gradient(blocks, block_of, pts - offset)
     g_med = float(np.median(grad))
     contrast = abs(level_in - level_out)
     if g_med <= 0 or contrast < 0.02:
@@ -221,30 +222,35 @@ def coarser_section(trace: Trace, plane: PlaneMap, tolerance_px: float) -> Secti
     return Section(plane.to_mm(rings[0]), [plane.to_mm(h) for h in rings[1:]])
 
 
-def _join(pieces: list[np.ndarray]) -> list[np.ndarray]:
-    """Closed iso-lines from the pieces found run by run: an open piece ends where the next
-    begins, on the row two runs share (marching squares orients every piece alike)."""
-    ends_meet = [len(p) > 2 and float(np.abs(p[0] - p[-1]).max()) < 1e-9 for p in pieces]
-    closed = [p for p, shut in zip(pieces, ends_meet) if shut]
-    open_ = [p for p, shut in zip(pieces, ends_meet) if not shut]
-    if not open_:
-        return closed
-    starts = np.array([p[0] for p in open_])
-    ends = np.array([p[-1] for p in open_])
-    gap = np.hypot(*(ends[:, None, :] - starts[None, :, :]).transpose(2, 0, 1))
-    nxt = np.where(gap.min(axis=1) < 1e-3, gap.argmin(axis=1), -1)
-    used = np.zeros(len(open_), bool)
-    for i in range(len(open_)):                       # a loop over pieces, a few per run
-        if used[i]:
-            continue
-        chain, k = [], i
-        while k >= 0 and not used[k]:
-            used[k] = True
-            chain.append(open_[k] if not chain else open_[k][1:])
-            k = nxt[k]
-        if k == i:                                    # back where it began: a ring
-            closed.append(np.vstack(chain))
-    return closed
+def _gradient(blocks: list, block_of: np.ndarray, pts: np.ndarray) -> np.ndarray:
+    """|grad f| at points (x, y) of the box, by central differences of bilinear samples of the
+    blocks' smoothed images (`block_of`: the block of each tile)."""
+    tile = np.clip((pts[:, ::-1] // _TILE).astype(int), 0, np.array(block_of.shape) - 1)
+    which = block_of[tile[:, 0], tile[:, 1]]
+    grad = np.zeros(len(pts))
+    for b in np.unique(which[which >= 0]):            # a loop over blocks
+        sel = which == b
+        fp, ya, xa = blocks[b]
+        q = pts[sel] - (xa, ya)
+        grad[sel] = np.hypot(_sample(fp, q + (1.0, 0.0)) - _sample(fp, q - (1.0, 0.0)),
+                             _sample(fp, q + (0.0, 1.0)) - _sample(fp, q - (0.0, 1.0))) / 2.0
+    return grad[which >= 0]
+
+
+def _stacked(rows: np.ndarray, starts: np.ndarray, ends: np.ndarray) -> list[tuple[int, int, int, int]]:
+    """Runs of tiles (row, first, past-last column) stacked into blocks (first row, past-last
+    row, first, past-last column) where runs in consecutive rows span the same columns."""
+    open_: dict[tuple[int, int], list[int]] = {}
+    blocks: list[list[int]] = []
+    for j, a, b in zip(rows.tolist(), starts.tolist(), ends.tolist()):   # a loop over runs
+        block = open_.get((a, b))
+        if block is not None and block[1] == j:
+            block[1] = j + 1
+        else:
+            block = [j, j + 1, a, b]
+            open_[(a, b)] = block
+            blocks.append(block)
+    return [tuple(x) for x in blocks]
 
 
 def _odd(size: float) -> int:
@@ -277,13 +283,15 @@ def _pixel_moments(seg: Segmentation, plane: PlaneMap, box: tuple[int, int, int,
     k = max(1, int(math.sqrt(seg.mask.sum() / fs2 / 30_000)))
     gx, gy = np.meshgrid(np.arange(c0 + k // 2, c1, k), np.arange(r0 + k // 2, r1, k))
     grid = np.column_stack([gx.ravel(), gy.ravel()]).astype(np.float64)
-    pts = grid[seg.field_at(seg.mask.astype(np.float32), grid) > 0.5]
-    step = k * k
-    mm = plane.to_mm(pts)
-    e = 0.5
-    dx = plane.to_mm(pts + (e, 0.0)) - mm
-    dy = plane.to_mm(pts + (0.0, e)) - mm
-    area = np.abs(dx[:, 0] * dy[:, 1] - dx[:, 1] * dy[:, 0]) / (e * e) * step
+    inside = seg.field_at(seg.mask.astype(np.float32), grid) > 0.5
+    # The lattice mapped once; each point's area from the mapped lattice around it.
+    mm = plane.to_mm(grid).reshape(gx.shape + (2,))
+    if min(gx.shape) < 2:
+        return {"A": 0.0, "Ix": 0.0, "Iy": 0.0}
+    dx = np.gradient(mm, axis=1) / k
+    dy = np.gradient(mm, axis=0) / k
+    area = (np.abs(dx[..., 0] * dy[..., 1] - dx[..., 1] * dy[..., 0]) * (k * k)).ravel()[inside]
+    mm = mm.reshape(-1, 2)[inside]
     A = float(area.sum())
     c = (area[:, None] * mm).sum(axis=0) / A
     d = mm - c

@@ -38,7 +38,7 @@ DEFAULT_TEXTURE_MM = 2.0
 _CHECK_FACTOR = 3.0
 # The Monte Carlo draws perturb a copy of the trace simplified within this many pixels (the
 # trace itself: 0.1 px); the reported u is the linear one, checked by the draws.
-_MC_SIMPLIFY_PX = 0.25
+_MC_SIMPLIFY_PX = 0.5
 
 
 @dataclass(frozen=True)

@@ -45,9 +45,11 @@ LENS_ALLOWANCE = 0.003
 DEFAULT_MAX_TILT = 5.0
 # A target fit whose corner residuals exceed this share of a square is refused.
 _POOR_FIT = 0.02
-# Longest side of the reduced copy the checkerboard is looked for on [px]; corners are then
-# refined on the full image.
+# The thorough look for a checkerboard is made on a reduced copy whose long side is at least
+# this [px]; corners are then refined on the full image.
 _DETECT_PX = 1100.0
+# Long side of the copy the quick first look for a checkerboard is made on [px].
+_QUICK_PX = 1000.0
 # Standard uncertainty of a point read off an image by a person [px].
 _CLICK_U = 0.5
 # Relative standard uncertainty of a flatbed scanner's stated resolution (common practice).
@@ -306,20 +308,27 @@ def find_corners(img8: np.ndarray, cols: int, rows: int) -> np.ndarray | None:
     import cv2
 
     h, w = img8.shape
-    k = max(1, int(max(h, w) // _DETECT_PX))           # whole blocks: the fast exact average
-    small = cv2.resize(img8[:h // k * k, :w // k * k], (w // k, h // k), interpolation=cv2.INTER_AREA) if k > 1 else img8
-    f = 1.0 / k
     quad = cv2.CALIB_CB_ADAPTIVE_THRESH | cv2.CALIB_CB_NORMALIZE_IMAGE | cv2.CALIB_CB_FAST_CHECK
-    ok, c = cv2.findChessboardCorners(small, (cols, rows), flags=quad)
-    if ok and not _regular(c.reshape(-1, 2), cols, rows):
-        ok = False                                   # a misordered grid: let the other detector look
-    if not ok:
-        ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=cv2.CALIB_CB_NORMALIZE_IMAGE)
-    if not ok:
-        flags = cv2.CALIB_CB_NORMALIZE_IMAGE | cv2.CALIB_CB_EXHAUSTIVE | cv2.CALIB_CB_ACCURACY
-        ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=flags)
+    # The quick look on a copy of at most _QUICK_PX; the thorough ones on one of at least
+    # _DETECT_PX (whole k x k blocks averaged: the fast exact reduction).
+    ok = False
+    tried = set()
+    for k, thorough in ((int(np.ceil(max(h, w) / _QUICK_PX)), False), (max(1, int(max(h, w) // _DETECT_PX)), True)):
+        small = cv2.resize(img8[:h // k * k, :w // k * k], (w // k, h // k), interpolation=cv2.INTER_AREA) if k > 1 else img8
+        if k not in tried:
+            tried.add(k)
+            ok, c = cv2.findChessboardCorners(small, (cols, rows), flags=quad)
+            ok = ok and _regular(c.reshape(-1, 2), cols, rows)   # a misordered grid: look again
+        if not ok and thorough:
+            ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=cv2.CALIB_CB_NORMALIZE_IMAGE)
+        if not ok and thorough:
+            flags = cv2.CALIB_CB_NORMALIZE_IMAGE | cv2.CALIB_CB_EXHAUSTIVE | cv2.CALIB_CB_ACCURACY
+            ok, c = cv2.findChessboardCornersSB(small, (cols, rows), flags=flags)
+        if ok:
+            break
     if not ok:
         return None
+    f = 1.0 / k
     c = (c.reshape(-1, 2).astype(np.float64) + 0.5) / f - 0.5
     step = np.median(np.hypot(*np.diff(c[:cols], axis=0).T))
     win = max(3, int(0.2 * step))
@@ -356,18 +365,22 @@ def _fit(px: np.ndarray, mm: np.ndarray) -> np.ndarray:
         J = _jacobian(h, px)
         step = np.linalg.lstsq(J, -r, rcond=None)[0]
         h = h + step
-        if np.max(np.abs(step) / np.maximum(np.abs(h), 1e-12)) < 1e-12:
-            break
+        if np.max(np.abs(J @ step)) < 1e-12 * max(1.0, float(np.max(np.abs(mm)))):
+            break                                   # the points moved by less than 1e-12 of the board
     return _h(h)
 
 
 def _jacobian(h: np.ndarray, px: np.ndarray) -> np.ndarray:
-    """d(projected mm points)/d(h), by central differences (8 columns)."""
-    J = np.empty((2 * len(px), 8))
-    for k in range(8):
-        d = np.zeros(8)
-        d[k] = 1e-7 * max(1.0, abs(h[k]))
-        J[:, k] = ((_project(_h(h + d), px) - _project(_h(h - d), px)) / (2 * d[k])).ravel()
+    """d(projected mm points)/d(h) (8 columns; rows x0, y0, x1, y1, ...), by the quotient rule."""
+    u, v = px[:, 0], px[:, 1]
+    w = h[6] * u + h[7] * v + 1.0
+    X = (h[0] * u + h[1] * v + h[2]) / w
+    Y = (h[3] * u + h[4] * v + h[5]) / w
+    J = np.zeros((2 * len(px), 8))
+    J[0::2, 0], J[0::2, 1], J[0::2, 2] = u / w, v / w, 1.0 / w
+    J[1::2, 3], J[1::2, 4], J[1::2, 5] = u / w, v / w, 1.0 / w
+    J[0::2, 6], J[0::2, 7] = -X * u / w, -X * v / w
+    J[1::2, 6], J[1::2, 7] = -Y * u / w, -Y * v / w
     return J
 
 

@@ -68,12 +68,12 @@ class Segmentation:
     def box(self, pad: int = 0) -> tuple[int, int, int, int]:
         """Rows r0:r1 and columns c0:c1 of the full photo that hold the member, `pad` px wider."""
         H, W = self.shape
-        ys, xs = np.nonzero(self.mask)
-        sy = sx = self.step
-        r0 = int(np.floor(ys.min() * sy)) - int(np.ceil(sy)) - pad
-        r1 = int(np.ceil((ys.max() + 1) * sy)) + int(np.ceil(sy)) + pad
-        c0 = int(np.floor(xs.min() * sx)) - int(np.ceil(sx)) - pad
-        c1 = int(np.ceil((xs.max() + 1) * sx)) + int(np.ceil(sx)) + pad
+        ys, xs = np.nonzero(self.mask.any(axis=1))[0], np.nonzero(self.mask.any(axis=0))[0]
+        k = self.step
+        r0 = int(ys[0]) * k - k - pad
+        r1 = (int(ys[-1]) + 1) * k + k + pad
+        c0 = int(xs[0]) * k - k - pad
+        c1 = (int(xs[-1]) + 1) * k + k + pad
         return max(0, r0), min(H, r1), max(0, c0), min(W, c1)
 
     def mask_in(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
