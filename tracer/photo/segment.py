@@ -2,7 +2,10 @@
 
 The image is smoothed, split into two classes by Otsu's threshold, and the member is the
 connected region of one class that holds the seed point, or, unattended, the largest region that
-touches neither the image border nor a scale reference (the target's sheet, a ruler). Texture
+stands out from the ground round it (by several times that ground's spread) and touches neither
+the image border nor a scale reference (the target's sheet, a ruler, a checkerboard's squares).
+Where no region stands out at Otsu's level (a thin member on a mottled ground, which that level
+splits into its own light and dark patches), the two levels of a three-class split are tried. Texture
 narrower than a set size (growth rings, checks, saw marks, rust speckle) is closed over; openings
 larger than that (a tube's bore, bolt holes) stay holes whatever their shade.
 
@@ -28,6 +31,9 @@ __all__ = ["Segmentation", "segment_member"]
 _WORK_PIXELS = 600_000
 # Long side of the copy the uneven light is estimated on [px] (light varies slowly).
 _LIGHT_PX = 128.0
+# A candidate region stands out when its level differs from the ground round it by more than
+# this many times that ground's spread.
+_STANDS_OUT = 3.0
 
 
 @dataclass(frozen=True)
@@ -190,59 +196,49 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
         usable &= alpha
     light = _light(smooth, usable)
     smooth = smooth / light
-    t = _otsu(smooth[::2, ::2][usable[::2, ::2]])     # every other pixel: the same histogram
-    bright = smooth > t
+    sample = smooth[::2, ::2][usable[::2, ::2]]      # every other pixel: the same histogram
+    t = _otsu(sample)
     r = max(1, int(round(texture_px / 2)))
     disk = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * r + 1, 2 * r + 1))
-
     if seed is not None:
+        bright = smooth > t
         sx, sy = seed                                  # inside the image: checked above
-        classes = [bool(bright[int(sy), int(sx)])]
-    else:
-        classes = [True, False]
-    found = []                                    # (area, region, class)
-    border = np.concatenate([bright[0], bright[-1], bright[:, 0], bright[:, -1]])
-    ground_is_bright = bool(border.mean() > 0.5)
-    cut_off = False
-    for cls in classes:
-        m = (bright if cls else ~bright) & usable
-        m = cv2.morphologyEx(m.astype(np.uint8), cv2.MORPH_CLOSE, disk)
-        m = cv2.morphologyEx(m, cv2.MORPH_OPEN, disk)
-        m &= usable.astype(np.uint8)
+        cls = bool(bright[int(sy), int(sx)])
+        m = _closed_and_opened((bright if cls else ~bright) & usable, disk, usable)
         n, labels, stats, _ = cv2.connectedComponentsWithStats(m, connectivity=8)
-        if seed is not None:
-            lab = labels[int(sy), int(sx)]
-            x, y, bw, bh, _ = stats[lab] if lab else (0, 0, w, h, 0)
-            if lab == 0 or x == 0 or y == 0 or x + bw == w or y + bh == h:
-                raise MeasurementError(f"--seed {given[0]:g},{given[1]:g} is on the background, not on a member "
-                                       "(its region reaches the image border); pick a point well inside the "
-                                       "cut face, and photograph the whole face")
-            found.append((stats[lab][4], labels == lab, cls))
-            continue
-        for k in range(1, n):
-            x, y, bw, bh, area = stats[k]
-            touches = x == 0 or y == 0 or x + bw == w or y + bh == h
-            if (area >= 0.002 * h * w and not touches and not _looks_like_ruler(labels == k)
-                    and not _looks_like_board(labels[y:y + bh, x:x + bw] == k,
-                                              (bright if cls else ~bright)[y:y + bh, x:x + bw])):
-                found.append((area, labels == k, cls))
-            elif touches and cls != ground_is_bright and area >= 0.002 * h * w:
-                cut_off = True
-    if seed is None:
-        # A region lying in another region's opening is that opening's inside (a tube's bore),
-        # not a member of its own.
-        filled = [_fill_small_holes(r, min_area=np.inf) for _, r, _ in found]
-        found = [f for i, f in enumerate(found)
-                 if not any(j != i and filled[j][f[1]].all() for j in range(len(found)))]
-    best = max(found, key=lambda f: f[0]) if found else None
-    if best is None and cut_off:
-        raise MeasurementError("the member is cut off by the image border; photograph the whole cut face "
-                               "with some ground around it")
-    if best is None:
-        raise MeasurementError("nothing segmented: no region stands out from its surroundings apart from the "
-                               "references; give --seed X,Y on the member, or photograph it against a "
-                               "contrasting ground")
-    _, region, cls = best
+        lab = labels[int(sy), int(sx)]
+        x, y, bw, bh, _ = stats[lab] if lab else (0, 0, w, h, 0)
+        if lab == 0 or x == 0 or y == 0 or x + bw == w or y + bh == h:
+            raise MeasurementError(f"--seed {given[0]:g},{given[1]:g} is on the background, not on a member "
+                                   "(its region reaches the image border); pick a point well inside the "
+                                   "cut face, and photograph the whole face")
+        best = (stats[lab][4], labels == lab, cls, t)
+    else:
+        found, cut_off = _regions(smooth, usable, t, disk)
+        # The ground's own spread over the photo (the class of the border at Otsu's level): a
+        # mottled ground's patches differ from their surroundings by about that much.
+        ground_bright = bool(np.median(np.concatenate([smooth[0], smooth[-1], smooth[:, 0], smooth[:, -1]])) > t)
+        ground = sample[(sample > t) == ground_bright]
+        floor = 1.4826 * float(np.median(np.abs(ground - np.median(ground)))) if len(ground) else 0.0
+        clear = [f for f in found if _stands_out(smooth, usable, f[1], r, floor)]
+        # Where nothing stands out clearly at Otsu's level (a thin member on a mottled ground,
+        # whose own light and dark patches that level splits), the levels of a three-class
+        # split are tried too.
+        if not clear:
+            for t3 in _otsu3(sample):
+                clear += [f for f in _regions(smooth, usable, t3, disk)[0]
+                          if _stands_out(smooth, usable, f[1], r, floor)]
+        # Else, as ever: the largest region at Otsu's level.
+        pool = clear or found
+        best = max(pool, key=lambda f: f[0]) if pool else None
+        if best is None and cut_off:
+            raise MeasurementError("the member is cut off by the image border; photograph the whole cut face "
+                                   "with some ground around it")
+        if best is None:
+            raise MeasurementError("nothing segmented: no region stands out from its surroundings apart from the "
+                                   "references; give --seed X,Y on the member, or photograph it against a "
+                                   "contrasting ground")
+    _, region, cls, t = best
     ys, xs = np.nonzero(region)
     if xs.min() == 0 or ys.min() == 0 or xs.max() == w - 1 or ys.max() == h - 1:
         raise MeasurementError("the member is cut off by the image border; photograph the whole cut face "
@@ -250,6 +246,86 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
     mask = _fill_small_holes(region, min_area=(2 * texture_px) ** 2)
     return Segmentation(mask=mask, smooth=smooth, threshold=float(t), member_is_bright=cls, light=light,
                         shape=(H0, W0))
+
+
+def _closed_and_opened(m: np.ndarray, disk: np.ndarray, usable: np.ndarray) -> np.ndarray:
+    """Texture narrower than the disk closed over, then specks opened away (uint8 mask)."""
+    import cv2
+
+    m = cv2.morphologyEx(m.astype(np.uint8), cv2.MORPH_CLOSE, disk)
+    m = cv2.morphologyEx(m, cv2.MORPH_OPEN, disk)
+    return m & usable.astype(np.uint8)
+
+
+def _regions(smooth: np.ndarray, usable: np.ndarray, t: float, disk: np.ndarray) -> tuple[list, bool]:
+    """Candidate members at level `t`: regions of either class, large enough, touching neither
+    the border nor a reference, not a ruler or a checkerboard, nor lying in another one's
+    opening (a tube's bore); and whether a region of the member's class was cut off."""
+    import cv2
+
+    h, w = smooth.shape
+    bright = smooth > t
+    border = np.concatenate([bright[0], bright[-1], bright[:, 0], bright[:, -1]])
+    ground_is_bright = bool(border.mean() > 0.5)
+    found, cut_off = [], False                      # (area, region, class, level)
+    for cls in (True, False):
+        same = bright if cls else ~bright
+        n, labels, stats, _ = cv2.connectedComponentsWithStats(_closed_and_opened(same & usable, disk, usable),
+                                                               connectivity=8)
+        for k in range(1, n):
+            x, y, bw, bh, area = stats[k]
+            touches = x == 0 or y == 0 or x + bw == w or y + bh == h
+            if (area >= 0.002 * h * w and not touches and not _looks_like_ruler(labels == k)
+                    and not _looks_like_board(labels[y:y + bh, x:x + bw] == k, same[y:y + bh, x:x + bw])):
+                found.append((area, labels == k, cls, t))
+            elif touches and cls != ground_is_bright and area >= 0.002 * h * w:
+                cut_off = True
+    filled = [_fill_small_holes(f[1], min_area=np.inf) for f in found]
+    found = [f for i, f in enumerate(found) if not any(j != i and filled[j][f[1]].all() for j in range(len(found)))]
+    return found, cut_off
+
+
+def _stands_out(smooth: np.ndarray, usable: np.ndarray, region: np.ndarray, r: int, floor: float) -> bool:
+    """The region's level differs from the ground round it by more than _STANDS_OUT times that
+    ground's spread (robust: medians and 1.4826 MAD), the spread being at least `floor` (the
+    ground's over the whole photo). The ground is read in a ring a little away from the region,
+    where a threshold has not cut its distribution short: a patch of a mottled ground then
+    differs by about one spread, a member by many."""
+    import cv2
+
+    ys, xs = np.nonzero(region.any(axis=1))[0], np.nonzero(region.any(axis=0))[0]
+    pad = 6 * r + 4
+    r0, r1 = max(0, ys[0] - pad), ys[-1] + 1 + pad
+    c0, c1 = max(0, xs[0] - pad), xs[-1] + 1 + pad
+    reg = region[r0:r1, c0:c1]
+    solid = _fill_small_holes(reg, min_area=np.inf).astype(np.uint8)
+    disk = lambda n: cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * n + 1, 2 * n + 1))
+    ring = (cv2.dilate(solid, disk(6 * r + 2)) > cv2.dilate(solid, disk(2 * r + 1))) & usable[r0:r1, c0:c1]
+    if ring.sum() < 20:
+        return False
+    img = smooth[r0:r1, c0:c1]
+    inside, around = np.median(img[reg]), img[ring]
+    spread = 1.4826 * float(np.median(np.abs(around - np.median(around))))
+    return abs(float(inside) - float(np.median(around))) > _STANDS_OUT * max(spread, floor, 1e-3)
+
+
+def _otsu3(values: np.ndarray) -> tuple[float, float]:
+    """The two levels of a three-class Otsu split of values in 0..1 (exhaustive over the
+    histogram's bins; between-class variance, as [1] for two classes)."""
+    bins = 128
+    idx = np.clip((np.asarray(values, np.float32) * np.float32(bins)).astype(np.intp), 0, bins - 1)
+    p = np.bincount(idx, minlength=bins).astype(np.float64)
+    p /= max(p.sum(), 1.0)
+    c = (np.arange(bins) + 0.5) / bins
+    w0, m0 = np.cumsum(p), np.cumsum(p * c)                 # weight and first moment below each bin
+    i, j = np.triu_indices(bins - 1, k=1)                   # split after bin i and after bin j
+    wa, ma = w0[i], m0[i]
+    wb, mb = w0[j] - w0[i], m0[j] - m0[i]
+    wc, mc = 1.0 - w0[j], m0[-1] - m0[j]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        between = ma ** 2 / wa + mb ** 2 / wb + mc ** 2 / wc
+    k = int(np.nanargmax(np.where((wa > 0) & (wb > 0) & (wc > 0), between, np.nan)))
+    return float((i[k] + 1) / bins), float((j[k] + 1) / bins)
 
 
 def _light(img: np.ndarray, usable: np.ndarray) -> np.ndarray:
