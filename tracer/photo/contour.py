@@ -283,11 +283,11 @@ def _pixel_moments(seg: Segmentation, plane: PlaneMap, box: tuple[int, int, int,
     k = max(1, int(math.sqrt(seg.mask.sum() / fs2 / 30_000)))
     gx, gy = np.meshgrid(np.arange(c0 + k // 2, c1, k), np.arange(r0 + k // 2, r1, k))
     grid = np.column_stack([gx.ravel(), gy.ravel()]).astype(np.float64)
+    if min(gx.shape) < 2:
+        return {"A": 0.0, "Ix": 0.0, "Iy": 0.0}
     inside = seg.field_at(seg.mask.astype(np.float32), grid) > 0.5
     # The lattice mapped once; each point's area from the mapped lattice around it.
     mm = plane.to_mm(grid).reshape(gx.shape + (2,))
-    if min(gx.shape) < 2:
-        return {"A": 0.0, "Ix": 0.0, "Iy": 0.0}
     dx = np.gradient(mm, axis=1) / k
     dy = np.gradient(mm, axis=0) / k
     area = (np.abs(dx[..., 0] * dy[..., 1] - dx[..., 1] * dy[..., 0]) * (k * k)).ravel()[inside]

@@ -41,8 +41,8 @@ class Segmentation:
     """The member's mask and the levels that separate it from its surroundings.
 
     A large photo is segmented on a reduced copy; the mask and the light are kept at that size
-    and brought to full resolution only over the member's box (:meth:`mask_in`,
-    :meth:`light_in`), where the edge is traced.
+    and brought to full resolution only where the edge is traced (:meth:`field_in` over a
+    rectangle, :meth:`field_at` at points).
 
     Attributes
     ----------
@@ -81,14 +81,6 @@ class Segmentation:
         c0 = int(xs[0]) * k - k - pad
         c1 = (int(xs[-1]) + 1) * k + k + pad
         return max(0, r0), min(H, r1), max(0, c0), min(W, c1)
-
-    def mask_in(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
-        """The mask at full resolution over rows r0:r1, columns c0:c1 (bilinear, as cv2.resize)."""
-        return self.field_in(self.mask.astype(np.float32), r0, r1, c0, c1) > 0.5
-
-    def light_in(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
-        """The uneven light at full resolution over rows r0:r1, columns c0:c1."""
-        return self.field_in(self.light, r0, r1, c0, c1)
 
     def field_in(self, small: np.ndarray, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
         """A field of the working copy's size, brought to full resolution over rows r0:r1,
