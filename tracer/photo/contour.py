@@ -32,6 +32,7 @@ from ..geometry import Section
 from .isolines import Isolines
 from .load import as_unit
 from .scale import PlaneMap
+from .tone import halfway_shift
 from .segment import Segmentation
 
 __all__ = ["Trace", "trace_boundary", "coarser_section"]
@@ -203,7 +204,10 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
     edge = {"gradient_per_px": g_med, "contrast": contrast, "blur_px": blur, "noise": noise,
             "offset_px": offset_px, "scatter_px": scatter_px, "correlation_px": math.hypot(blur, _EDGE_SIGMA),
             "mm_per_px": s, "offset_mm": offset_px * s, "scatter_mm": scatter_px * s,
-            "correlation_mm": math.hypot(blur, _EDGE_SIGMA) * s}
+            "correlation_mm": math.hypot(blur, _EDGE_SIGMA) * s,
+            # Where an sRGB camera encoded the blurred light, the halfway level lies this far
+            # towards the darker side (tracer.photo.tone); + where the member is the brighter.
+            "tone_shift_px": halfway_shift(level_in, level_out, blur) * (1.0 if level_in > level_out else -1.0)}
     return Trace(section=section, rings_px=[outer_ring] + holes, edge=edge,
                  pixel_check=_pixel_moments(seg, plane, (r0, r1, c0, c1)))
 

@@ -39,6 +39,8 @@ _CHECK_FACTOR = 3.0
 # The Monte Carlo draws perturb a copy of the trace simplified within this many pixels (the
 # trace itself: 0.1 px); the reported u is the linear one, checked by the draws.
 _MC_SIMPLIFY_PX = 0.5
+# The shift an sRGB tone curve would give an edge is reported from this size [px].
+_TONE_WARN_PX = 0.05
 
 
 @dataclass(frozen=True)
@@ -197,6 +199,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         plane.record["lens"] = {"profile": profile.name, "rms_px": profile.rms_px,
                                 "max_correction_px": profile.max_shift_px()}
     warnings += _cross_check(trace)
+    warnings += _tone_warning(trace)
     if plane.record["method"] != "dpi":
         seen = _side_faces(plane, trace, photo, profile)
         if seen is not None:
@@ -316,6 +319,20 @@ def _read_ruler(photo: Photo, ruler: str, pitch: str | None, ruler_class: str) -
         raise MeasurementError(f"no ruler graduation found along --ruler {ruler}: looked for {MIN_TICKS} or "
                                "more evenly spaced marks within about an eighth of its length of that line")
     return [reading], pitch_mm
+
+
+def _tone_warning(trace: Trace) -> list[str]:
+    """What an sRGB tone curve would do to this trace (edges are found on the stored levels)."""
+    from ..properties import section_properties
+
+    shift = trace.edge["tone_shift_px"]
+    if abs(shift) < _TONE_WARN_PX:
+        return []
+    p = section_properties(trace.section)
+    dA = 100 * shift * trace.edge["mm_per_px"] * p.perimeter / p.A
+    return [f"edges are found on the photo's stored grey levels; if the camera encoded its light with the usual "
+            f"sRGB tone curve, this blur (about {trace.edge['blur_px']:.1f} px) puts each edge about {abs(shift):.2f} px "
+            f"towards the darker side, A {dA:+.1f} % (not in u); photograph the cut face sharper"]
 
 
 def _cross_check(trace: Trace) -> list[str]:
