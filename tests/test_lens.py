@@ -110,7 +110,7 @@ def test_too_few_boards_is_refused(board_photos, tmp_path):
 def test_the_profile_removes_the_lens_error(profile, tmp_path):
     prof, _ = profile
     sec = channel(h=152, b=76, tw=6.4, tf=9, r=8, chord_angle=0.05).translated(20.0, -30.0)
-    r = render(Scene(section=sec, target=(9, 6, 15.0), target_at=(-150.0, -60.0), px_per_mm=3.5, sensor=SENSOR,
+    r = render(Scene(section=sec, target=(9, 6, 15.0), target_at=(-150.0, -60.0), px_per_mm=4.0, sensor=SENSOR,
                      focal_px=FOCAL, distortion=DIST, tilt=8.0, tilt_axis=30.0, member="steel", seed=7))
     photo = tmp_path / "member.jpg"
     cv2.imwrite(str(photo), r.image)

@@ -1,7 +1,8 @@
 """Sub-pixel boundary rings of the member, mapped to millimetres, with their uncertainty.
 
-The boundary is the iso-line of the smoothed image at the level halfway between the member's and
-the ground's grey level, found by marching squares to sub-pixel precision [1]_ (see
+The boundary is the iso-line of the smoothed image, decoded from sRGB levels to light (a lens
+blurs light; see :mod:`tracer.photo.tone`), at the level halfway between the member's and the
+ground's light, found by marching squares to sub-pixel precision [1]_ (see
 :mod:`tracer.photo.isolines`) in a band along the mask's edge (elsewhere the image is replaced by
 the two levels, so texture inside the member and on the ground draws no lines). Only the tiles
 the band passes through are read at full resolution. For a blurred straight edge the half-level
@@ -30,19 +31,21 @@ import numpy as np
 from ..errors import GeometryError, MeasurementError
 from ..geometry import Section
 from .isolines import Isolines
-from .load import as_unit
+from .tone import to_light
 from .scale import PlaneMap
-from .tone import halfway_shift
 from .segment import Segmentation
 
 __all__ = ["Trace", "trace_boundary", "coarser_section"]
 
 # Simplification tolerance of the pixel rings [px].
 _SIMPLIFY_PX = 0.1
-# Smoothing of the image the edge is found on [px].
-_EDGE_SIGMA = 1.0
+# Smoothing of the image the edge is found on [px]: enough against noise and JPEG blocks, small
+# because smoothing moves curved edges inward by about σ²/(2R) and rounds corners.
+_EDGE_SIGMA = 0.7
 # A floor on the systematic edge offset [px]: threshold, blur asymmetry and JPEG ringing.
 _OFFSET_FLOOR_PX = 0.15
+# The member's and the ground's light must differ by at least this share of the brighter.
+_MIN_CONTRAST = 0.05
 # Side of the tiles the band along the edge is read in [px].
 _TILE = 32
 
@@ -142,7 +145,7 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
         ya, yb = max(0, r0 + ra - halo), min(H, r0 + rb + halo)
         xa, xb = max(0, c0 + ca - halo), min(W, c0 + cb + halo)
         light, sdp, midp = np.moveaxis(seg.field_in(fields, ya - sy, yb - sy, xa - sx, xb - sx), 2, 0)
-        fp = cv2.GaussianBlur(as_unit(gray[ya:yb, xa:xb]) / light, (0, 0), _EDGE_SIGMA)
+        fp = cv2.GaussianBlur(to_light(gray[ya:yb, xa:xb]) / light, (0, 0), _EDGE_SIGMA)
         inside = (slice(r0 + ra - ya, r0 + rb - ya), slice(c0 + ca - xa, c0 + cb - xa))
         fi, sdi = fp[inside], sdp[inside]
         band = np.abs(sdi) <= band_r
@@ -187,9 +190,10 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
     grad = _gradient(blocks, block_of, pts - offset)
     g_med = float(np.median(grad))
     contrast = abs(level_in - level_out)
-    if g_med <= 0 or contrast < 0.02:
-        raise MeasurementError("the member hardly stands out from its surroundings (contrast "
-                               f"{100 * contrast:.1f} %); photograph it against a contrasting ground")
+    relative = contrast / max(level_in, level_out, 1e-6)
+    if g_med <= 0 or relative < _MIN_CONTRAST:
+        raise MeasurementError("the member hardly stands out from its surroundings (their light differs by "
+                               f"{100 * relative:.1f} %); photograph it against a contrasting ground")
     noise = _robust_spread(np.concatenate(resid_vals) if resid_vals else np.zeros(0))
     blur = contrast / (math.sqrt(2 * math.pi) * g_med)
     scatter_px = noise / g_med
@@ -204,10 +208,7 @@ def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoo
     edge = {"gradient_per_px": g_med, "contrast": contrast, "blur_px": blur, "noise": noise,
             "offset_px": offset_px, "scatter_px": scatter_px, "correlation_px": math.hypot(blur, _EDGE_SIGMA),
             "mm_per_px": s, "offset_mm": offset_px * s, "scatter_mm": scatter_px * s,
-            "correlation_mm": math.hypot(blur, _EDGE_SIGMA) * s,
-            # Where an sRGB camera encoded the blurred light, the halfway level lies this far
-            # towards the darker side (tracer.photo.tone); + where the member is the brighter.
-            "tone_shift_px": halfway_shift(level_in, level_out, blur) * (1.0 if level_in > level_out else -1.0)}
+            "correlation_mm": math.hypot(blur, _EDGE_SIGMA) * s}
     return Trace(section=section, rings_px=[outer_ring] + holes, edge=edge,
                  pixel_check=_pixel_moments(seg, plane, (r0, r1, c0, c1)))
 

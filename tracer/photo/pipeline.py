@@ -25,6 +25,7 @@ from .ruler import MIN_TICKS, RulerReading, pitch_check
 from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_ruler,
                     map_from_target, map_from_two_rulers, parse_target, parse_two_points)
 from .segment import Segmentation, segment_member
+from .tone import to_light
 from .view import camera_view, image_side, side_faces
 
 __all__ = ["PhotoMeasurement", "measure_photo", "PHOTO_SUFFIXES", "DEFAULT_TEXTURE_MM"]
@@ -39,8 +40,6 @@ _CHECK_FACTOR = 3.0
 # The Monte Carlo draws perturb a copy of the trace simplified within this many pixels (the
 # trace itself: 0.1 px); the reported u is the linear one, checked by the draws.
 _MC_SIMPLIFY_PX = 0.5
-# The shift an sRGB tone curve would give an edge is reported from this size [px].
-_TONE_WARN_PX = 0.05
 
 
 @dataclass(frozen=True)
@@ -199,7 +198,6 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         plane.record["lens"] = {"profile": profile.name, "rms_px": profile.rms_px,
                                 "max_correction_px": profile.max_shift_px()}
     warnings += _cross_check(trace)
-    warnings += _tone_warning(trace)
     if plane.record["method"] != "dpi":
         seen = _side_faces(plane, trace, photo, profile)
         if seen is not None:
@@ -313,26 +311,12 @@ def _read_ruler(photo: Photo, ruler: str, pitch: str | None, ruler_class: str) -
     ruler_tolerance(pitch_mm, 100.0, ruler_class)            # an unknown class is refused here
     where = parse_ruler(ruler)
     if isinstance(where, str):
-        return find_rulers(photo.gray), pitch_mm
-    reading = read_ruler(photo.gray, where[0], where[1])
+        return find_rulers(to_light(photo.levels)), pitch_mm
+    reading = read_ruler(to_light(photo.levels), where[0], where[1])
     if reading is None:
         raise MeasurementError(f"no ruler graduation found along --ruler {ruler}: looked for {MIN_TICKS} or "
                                "more evenly spaced marks within about an eighth of its length of that line")
     return [reading], pitch_mm
-
-
-def _tone_warning(trace: Trace) -> list[str]:
-    """What an sRGB tone curve would do to this trace (edges are found on the stored levels)."""
-    from ..properties import section_properties
-
-    shift = trace.edge["tone_shift_px"]
-    if abs(shift) < _TONE_WARN_PX:
-        return []
-    p = section_properties(trace.section)
-    dA = 100 * shift * trace.edge["mm_per_px"] * p.perimeter / p.A
-    return [f"edges are found on the photo's stored grey levels; if the camera encoded its light with the usual "
-            f"sRGB tone curve, this blur (about {trace.edge['blur_px']:.1f} px) puts each edge about {abs(shift):.2f} px "
-            f"towards the darker side, A {dA:+.1f} % (not in u); photograph the cut face sharper"]
 
 
 def _cross_check(trace: Trace) -> list[str]:

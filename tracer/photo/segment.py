@@ -4,8 +4,9 @@ The image is smoothed, split into two classes by Otsu's threshold, and the membe
 connected region of one class that holds the seed point, or, unattended, the largest region that
 stands out from the ground round it (by several times that ground's spread) and touches neither
 the image border nor a scale reference (the target's sheet, a ruler, a checkerboard's squares).
-Where no region stands out at Otsu's level (a thin member on a mottled ground, which that level
-splits into its own light and dark patches), the two levels of a three-class split are tried. Texture
+Candidates come from Otsu's level and from the two levels of a three-class split (a thin member
+on a mottled ground merges, at Otsu's level, with the darker or lighter patches of the ground that
+this level splits). Texture
 narrower than a set size (growth rings, checks, saw marks, rust speckle) is closed over; openings
 larger than that (a tube's bore, bolt holes) stay holes whatever their shade.
 
@@ -22,7 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError, MeasurementError
-from .load import as_unit
+from .tone import to_light
 
 __all__ = ["Segmentation", "segment_member"]
 
@@ -32,7 +33,7 @@ _WORK_PIXELS = 600_000
 # Long side of the copy the uneven light is estimated on [px] (light varies slowly).
 _LIGHT_PX = 128.0
 # A candidate region stands out when its level differs from the ground round it by more than
-# this many times that ground's spread.
+# this many times that ground's spread (strongly: twice as many).
 _STANDS_OUT = 3.0
 
 
@@ -127,13 +128,14 @@ class Segmentation:
 
 def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, float] | None = None,
                    keep_out: list[np.ndarray] = (), alpha: np.ndarray | None = None,
-                   _given_seed: tuple[float, float] | None = None) -> Segmentation:
+                   _given_seed: tuple[float, float] | None = None, _in_light: bool = False) -> Segmentation:
     """Find the member in `gray` (H, W floats 0..1).
 
     Parameters
     ----------
     gray : ndarray
-        Grey levels, uint8 (0..255) or float 0..1.
+        Grey levels as stored (sRGB), uint8 (0..255) or float 0..1; the mask is found on the
+        light they stand for (:mod:`tracer.photo.tone`).
     texture_px : float
         Cracks and specks narrower than this [px] are texture, not edges or holes.
     seed : (x, y), optional
@@ -164,14 +166,14 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
     if k > 1:
         src = gray if gray.dtype == np.uint8 else gray.astype(np.float32)
         h, w = H0 // k, W0 // k
-        small = as_unit(cv2.resize(src[:h * k, :w * k], (w, h), interpolation=cv2.INTER_AREA))
+        small = to_light(cv2.resize(src[:h * k, :w * k], (w, h), interpolation=cv2.INTER_AREA))
 
         def to_small(p):
             return (np.asarray(p, float) + 0.5) / k - 0.5
 
         seg = segment_member(small, texture_px=texture_px / k,
                              seed=None if seed is None else tuple(np.clip(to_small(seed), 0, [w - 1, h - 1])),
-                             _given_seed=seed,
+                             _given_seed=seed, _in_light=True,
                              keep_out=[to_small(p) for p in keep_out],
                              alpha=None if alpha is None else cv2.resize(alpha[:h * k, :w * k].astype(np.uint8), (w, h),
                                                                           interpolation=cv2.INTER_NEAREST).astype(bool))
@@ -179,7 +181,7 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
                             member_is_bright=seg.member_is_bright, light=seg.light, shape=(H0, W0), step=k)
     h, w = H0, W0
     sigma = max(1.0, 0.25 * texture_px)
-    smooth = cv2.GaussianBlur(as_unit(gray), (0, 0), sigma)
+    smooth = cv2.GaussianBlur(gray.astype(np.float32) if _in_light else to_light(gray), (0, 0), sigma)
     refs = np.zeros((h, w), np.uint8)
     for poly in keep_out:
         cv2.fillPoly(refs, [np.round(poly).astype(np.int32)], 1)
@@ -212,16 +214,18 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
         ground_bright = bool(np.median(np.concatenate([smooth[0], smooth[-1], smooth[:, 0], smooth[:, -1]])) > t)
         ground = sample[(sample > t) == ground_bright]
         floor = 1.4826 * float(np.median(np.abs(ground - np.median(ground)))) if len(ground) else 0.0
-        clear = [f for f in found if _stands_out(smooth, usable, f[1], r, floor)]
-        # Where nothing stands out clearly at Otsu's level (a thin member on a mottled ground,
-        # whose own light and dark patches that level splits), the levels of a three-class
-        # split are tried too.
-        if not clear:
+        at_otsu = [(f, _stands_out(smooth, usable, f[1], r, floor)) for f in found]
+        # A thin member on a mottled ground can merge, at Otsu's level, with the darker (or
+        # lighter) patches of the ground that this level splits: the levels of a three-class
+        # split give candidates too. The largest region that stands out strongly at Otsu's level
+        # is taken; else the largest at the other levels; else the largest that stands out at all.
+        at_three = []
+        if not any(q >= 2 * _STANDS_OUT for _, q in at_otsu):
             for t3 in _otsu3(sample):
-                clear += [f for f in _regions(smooth, usable, t3, disk)[0]
-                          if _stands_out(smooth, usable, f[1], r, floor)]
-        # Else, as ever: the largest region at Otsu's level.
-        pool = clear or found
+                at_three += [(f, _stands_out(smooth, usable, f[1], r, floor)) for f in _regions(smooth, usable, t3, disk)[0]]
+        tiers = ([f for f, q in at_otsu if q >= 2 * _STANDS_OUT], [f for f, q in at_three if q >= 2 * _STANDS_OUT],
+                 [f for f, q in at_otsu + at_three if q > _STANDS_OUT], found)
+        pool = next((t for t in tiers if t), [])
         best = max(pool, key=lambda f: f[0]) if pool else None
         if best is None and cut_off:
             raise MeasurementError("the member is cut off by the image border; photograph the whole cut face "
@@ -277,10 +281,10 @@ def _regions(smooth: np.ndarray, usable: np.ndarray, t: float, disk: np.ndarray)
     return found, cut_off
 
 
-def _stands_out(smooth: np.ndarray, usable: np.ndarray, region: np.ndarray, r: int, floor: float) -> bool:
-    """The region's level differs from the ground round it by more than _STANDS_OUT times that
-    ground's spread (robust: medians and 1.4826 MAD), the spread being at least `floor` (the
-    ground's over the whole photo). The ground is read in a ring a little away from the region,
+def _stands_out(smooth: np.ndarray, usable: np.ndarray, region: np.ndarray, r: int, floor: float) -> float:
+    """How many times the ground's spread the region's level differs from the ground round it
+    (robust: medians and 1.4826 MAD), the spread being at least `floor` (the ground's over the
+    whole photo); 0 where no ground is round it. The ground is read in a ring a little away from the region,
     where a threshold has not cut its distribution short: a patch of a mottled ground then
     differs by about one spread, a member by many."""
     import cv2
@@ -294,11 +298,11 @@ def _stands_out(smooth: np.ndarray, usable: np.ndarray, region: np.ndarray, r: i
     disk = lambda n: cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * n + 1, 2 * n + 1))
     ring = (cv2.dilate(solid, disk(6 * r + 2)) > cv2.dilate(solid, disk(2 * r + 1))) & usable[r0:r1, c0:c1]
     if ring.sum() < 20:
-        return False
+        return 0.0
     img = smooth[r0:r1, c0:c1]
     inside, around = np.median(img[reg]), img[ring]
     spread = 1.4826 * float(np.median(np.abs(around - np.median(around))))
-    return abs(float(inside) - float(np.median(around))) > _STANDS_OUT * max(spread, floor, 1e-3)
+    return abs(float(inside) - float(np.median(around))) / max(spread, floor, 1e-3)
 
 
 def _otsu3(values: np.ndarray) -> tuple[float, float]:

@@ -16,6 +16,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..geometry import Section
+from .tone import to_levels, to_light
 
 __all__ = ["Scene", "Render", "render"]
 
@@ -79,6 +80,10 @@ class Scene:
     member_length : float
         Length [mm] of the member behind its cut face: its side faces are drawn where the
         camera sees them (an oblique or off-centre view); 0 draws the face alone.
+    tone : {"srgb", "linear"}
+        ``"srgb"``: the painted shades are sRGB levels; lens distortion, blur and light fall-off
+        act on the light they stand for, and the result is encoded again, as a camera does.
+        ``"linear"``: they act on the levels themselves.
     """
 
     section: Section | None
@@ -105,6 +110,7 @@ class Scene:
     focal_px: float = 3000.0
     distortion: tuple[float, ...] = ()
     member_length: float = 0.0
+    tone: str = "srgb"
 
 
 @dataclass(frozen=True)
@@ -198,12 +204,21 @@ def render(scene: Scene) -> Render:
         return acc.reshape(H, k, W, k).mean(axis=(1, 3), dtype=np.float32)
 
     member_light = scene.member == "timber"
-    img = (45.0 if member_light else 215.0) + _texture(rng, H, W, scale=6 * scene.px_per_mm, amplitude=10.0)
+    # The painted shades are sRGB levels; with tone "srgb" every layer is composited in light
+    # (a pixel half covered gets half of each layer's light), and the lens and the light act on
+    # light; the camera encodes what it recorded. With "linear" all of it acts on the levels.
+    srgb = scene.tone == "srgb"
+
+    def shade(v):
+        v = np.asarray(v, dtype=np.float32)
+        return to_light(np.clip(v, 0, 255) / 255.0) * 255.0 if srgb else v
+
+    img = shade((45.0 if member_light else 215.0) + _texture(rng, H, W, scale=6 * scene.px_per_mm, amplitude=10.0))
     if scene.section is not None:
         rings = list(scene.section.rings())
         if scene.member_length > 0:                       # the side faces behind the cut end
             side = cover(_side_faces(P, [r for r, _ in rings], scene.member_length), mapped=True)
-            img = img * (1 - side) + (150.0 if member_light else 95.0) * side
+            img = img * (1 - side) + shade(150.0 if member_light else 95.0) * side
         m = cover([r for r, _ in rings], [-1 if hole else 1 for _, hole in rings])
         if member_light:
             yy, xx = np.mgrid[0:H, 0:W].astype(np.float64)
@@ -214,7 +229,7 @@ def render(scene: Scene) -> Render:
             face = 185.0 + 18.0 * grain + _texture(rng, H, W, scale=1.5 * scene.px_per_mm, amplitude=6.0)
         else:
             face = 120.0 + _texture(rng, H, W, scale=0.8 * scene.px_per_mm, amplitude=8.0)
-        img = img * (1 - m) + face * m
+        img = img * (1 - m) + shade(face) * m
     paint = []
     if scene.target is not None:
         paint.append(([_rect(*paper)], 235.0))
@@ -226,13 +241,15 @@ def render(scene: Scene) -> Render:
         paint.append((_ruler_ticks(start, length, a, scene.ruler_pitch, scene.ruler_marks), 30.0))
     for polys, value in paint:
         f = cover(polys)
-        img = img * (1 - f) + value * f
+        img = img * (1 - f) + shade(value) * f
     if scene.distortion:
         img = _distort(img.astype(np.float32), K, np.array(scene.distortion, dtype=np.float64))
     if scene.blur > 0:
         img = cv2.GaussianBlur(img.astype(np.float32), (0, 0), scene.blur)
     gx = np.linspace(-0.5, 0.5, W, dtype=np.float32)[None, :]
     img = img * (1.0 - scene.light * (gx + 0.5))
+    if srgb:
+        img = to_levels(img / 255.0) * 255.0
     img = img + rng.normal(0.0, scene.noise, img.shape).astype(np.float32)
     bgr = np.clip(np.stack([img * 0.92, img, img * 1.05], axis=2), 0, 255).astype(np.uint8)
     if scene.jpeg is not None:
