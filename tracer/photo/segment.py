@@ -214,7 +214,7 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
         ground_bright = bool(np.median(np.concatenate([smooth[0], smooth[-1], smooth[:, 0], smooth[:, -1]])) > t)
         ground = sample[(sample > t) == ground_bright]
         floor = 1.4826 * float(np.median(np.abs(ground - np.median(ground)))) if len(ground) else 0.0
-        at_otsu = [(f, _stands_out(smooth, usable, f[1], r, floor)) for f in found]
+        at_otsu = [(f, _stand_out_ratio(smooth, usable, f[1], r, floor)) for f in found]
         # A thin member on a mottled ground can merge, at Otsu's level, with the darker (or
         # lighter) patches of the ground that this level splits: the levels of a three-class
         # split give candidates too. The largest region that stands out strongly at Otsu's level
@@ -222,7 +222,7 @@ def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, fl
         at_three = []
         if not any(q >= 2 * _STANDS_OUT for _, q in at_otsu):
             for t3 in _otsu3(sample):
-                at_three += [(f, _stands_out(smooth, usable, f[1], r, floor)) for f in _regions(smooth, usable, t3, disk)[0]]
+                at_three += [(f, _stand_out_ratio(smooth, usable, f[1], r, floor)) for f in _regions(smooth, usable, t3, disk)[0]]
         tiers = ([f for f, q in at_otsu if q >= 2 * _STANDS_OUT], [f for f, q in at_three if q >= 2 * _STANDS_OUT],
                  [f for f, q in at_otsu + at_three if q > _STANDS_OUT], found)
         pool = next((t for t in tiers if t), [])
@@ -281,12 +281,12 @@ def _regions(smooth: np.ndarray, usable: np.ndarray, t: float, disk: np.ndarray)
     return found, cut_off
 
 
-def _stands_out(smooth: np.ndarray, usable: np.ndarray, region: np.ndarray, r: int, floor: float) -> float:
+def _stand_out_ratio(smooth: np.ndarray, usable: np.ndarray, region: np.ndarray, r: int, floor: float) -> float:
     """How many times the ground's spread the region's level differs from the ground round it
     (robust: medians and 1.4826 MAD), the spread being at least `floor` (the ground's over the
-    whole photo); 0 where no ground is round it. The ground is read in a ring a little away from the region,
-    where a threshold has not cut its distribution short: a patch of a mottled ground then
-    differs by about one spread, a member by many."""
+    whole photo); 0 where no ground is round it. The ground is read in a ring a little away
+    from the region, where a threshold has not cut its distribution short: a patch of a
+    mottled ground then differs by about one spread, a member by many."""
     import cv2
 
     ys, xs = np.nonzero(region.any(axis=1))[0], np.nonzero(region.any(axis=0))[0]
