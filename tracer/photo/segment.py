@@ -50,10 +50,11 @@ class Segmentation:
     mask : ndarray (h, w) bool
         The member's cut face (holes False), on the working copy.
     smooth : ndarray float32
-        The smoothed grey image, with uneven light divided out, that the threshold was applied to
-        (of the working copy).
+        The smoothed light of the working copy (sRGB levels decoded, see :mod:`tracer.photo.tone`),
+        with the uneven light divided out, that the threshold was applied to.
     threshold : float
-        Otsu's level on `smooth`.
+        The level on `smooth` that gave the member's region (Otsu's, or one of a three-class
+        split).
     member_is_bright : bool
     light : ndarray (h, w) float32
         The uneven light divided out (1 where even), on the working copy.
