@@ -30,7 +30,6 @@ import math
 import os
 import re
 import time
-import tomllib
 import unicodedata
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -39,66 +38,14 @@ from typing import Any, Callable, Iterator
 from ._version import __version__
 from .errors import InputError, MeasurementError, TracerError
 from .files import write_atomic, write_atomic_bytes
+from .photo.sidecar import PHOTO_OPTIONS, PhotoOption
+from .photo.sidecar import layer_options as _layer
+from .photo.sidecar import merge_options as _merge
+from .photo.sidecar import read_sidecar as _sidecar
 
 __all__ = ["PhotoOption", "PHOTO_OPTIONS", "MANIFEST_COLUMNS", "REPORT_CHOICES", "INVENTORY_KEYS", "BatchItem",
            "BatchProgress", "BatchSummary", "plan_batch", "run_batch", "rebuild_inventory", "safe_name"]
 
-
-@dataclass(frozen=True)
-class PhotoOption:
-    """How a photo option is read from a sidecar, a manifest cell or the command line.
-
-    Attributes
-    ----------
-    parse : callable
-        Text or a TOML value -> the value :func:`~tracer.photo.pipeline.measure_photo` takes.
-    scale_reference : bool
-        The option is a scale reference: an item that gives one replaces the lot's (a photo
-        has one scale reference).
-    file : bool
-        The value is a file, relative to the sidecar or manifest that names it; its contents
-        enter the item's key.
-    """
-
-    parse: Callable[[Any], Any]
-    scale_reference: bool = False
-    file: bool = False
-
-
-def _text(value: Any) -> str:
-    if isinstance(value, bool) or not isinstance(value, (str, int, float)):
-        raise ValueError("write it as text, as the tracer measure option takes it")
-    return str(value).strip()
-
-
-def _number(value: Any) -> float:
-    if isinstance(value, bool):
-        raise ValueError("write a number")
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise ValueError("write a number") from None
-    if not math.isfinite(v):
-        raise ValueError("write a finite number")
-    return v
-
-
-#: The photo options an item may set, by the keyword name of ``measure_photo`` (and of the
-#: ``tracer measure`` option, dashes for underscores). Manifest columns, sidecar keys and the
-#: lot's defaults are all read through this one table: a new photo option is added here.
-PHOTO_OPTIONS: dict[str, PhotoOption] = {
-    "target": PhotoOption(_text, scale_reference=True),
-    "scale": PhotoOption(_text, scale_reference=True),
-    "dpi": PhotoOption(_number, scale_reference=True),
-    "known": PhotoOption(_text),
-    "seed": PhotoOption(_text),
-    "max_tilt": PhotoOption(_number),
-    "texture": PhotoOption(_text),
-    "lens": PhotoOption(_text, file=True),
-    "ruler": PhotoOption(_text, scale_reference=True),
-    "pitch": PhotoOption(_text),
-    "ruler_class": PhotoOption(_text),
-}
 
 #: The manifest's columns: ``path`` (required), ``name``, and any photo option.
 MANIFEST_COLUMNS: tuple[str, ...] = ("path", "name", *PHOTO_OPTIONS)
@@ -115,7 +62,6 @@ FAILURE_SCHEMA = "tracer/batch-failure/1"
 _PLAN = "batch.json"
 _THUMBS = "thumbs"
 _RESERVED = frozenset({"batch", "index", "inventory", _THUMBS})
-_SIDECAR_NOTES = ("notes",)                           # text a sidecar may carry besides settings
 _THUMB_SIDE = 160                                    # px, longest side of a thumbnail
 _SHEET_SUFFIX = ".toml"
 
@@ -436,49 +382,6 @@ def _manifest_items(manifest: Path) -> list[tuple]:
             error = f"{shown}: neither a photo ({' '.join(_photo_suffixes())}) nor a sheet (.toml)"
         found.append((path, shown, label, cells_, error))
     return found
-
-
-def _layer(raw: dict[str, Any], where: str, base: Path) -> dict[str, Any]:
-    """Photo options of one source of settings, checked and parsed; files made absolute."""
-    out = {}
-    for key, value in raw.items():
-        if key not in PHOTO_OPTIONS:
-            raise InputError(f"{where}: unknown setting {key!r}; use {', '.join(PHOTO_OPTIONS)}")
-        if value is None or value == "":
-            continue
-        opt = PHOTO_OPTIONS[key]
-        try:
-            v = opt.parse(value)
-        except ValueError as e:
-            raise InputError(f"{where}: {key} = {value!r}: {e}") from None
-        if opt.file:
-            v = str((base / v).resolve())
-        out[key] = v
-    return out
-
-
-def _sidecar(photo: Path) -> tuple[dict[str, Any], str | None]:
-    """The photo options and name in the sidecar ``STEM.toml`` beside `photo` (none if absent)."""
-    side = photo.with_suffix(_SHEET_SUFFIX)
-    if not side.is_file():
-        return {}, None
-    try:
-        doc = tomllib.loads(side.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError) as e:
-        raise InputError(f"sidecar {side.name}: not readable TOML ({e})") from None
-    name = doc.pop("name", None)
-    if name is not None and not isinstance(name, str):
-        raise InputError(f"sidecar {side.name}: name = {name!r} must be text in quotes")
-    # Tables (such as [truth] of the bundled samples) and notes are for people, not settings.
-    raw = {k: v for k, v in doc.items() if not isinstance(v, dict) and k not in _SIDECAR_NOTES}
-    return _layer(raw, f"sidecar {side.name}", side.parent), name
-
-
-def _merge(base: dict[str, Any], over: dict[str, Any]) -> dict[str, Any]:
-    """`over` on top of `base`; a scale reference in `over` replaces those of `base`."""
-    if any(PHOTO_OPTIONS[k].scale_reference for k in over):
-        base = {k: v for k, v in base.items() if not PHOTO_OPTIONS[k].scale_reference}
-    return {**base, **over}
 
 
 def _unique(name: str, taken: set[str]) -> str:

@@ -374,7 +374,17 @@ def _add_photo_options(parser: argparse.ArgumentParser) -> argparse._ArgumentGro
     photo.add_argument("--dpi", type=float, metavar="N", help="the resolution of a flatbed scan")
     photo.add_argument("--known", metavar="depth=LENGTH|width=LENGTH",
                        help="one caliper reading of the member: the scale alone, or a cross-check with a target")
-    photo.add_argument("--seed", metavar="X,Y", help="a pixel on the member, where several objects are in view")
+    photo.add_argument("--seed", metavar="X,Y", action="append",
+                       help="a point on the member (pixels, x right, y down); repeatable")
+    photo.add_argument("--outside", metavar="X,Y", action="append",
+                       help="a point on the ground, or on anything that is not the member; repeatable")
+    photo.add_argument("--box", metavar="X0,Y0,X1,Y1", help="a rough box round the cut face (pixels)")
+    photo.add_argument("--under-bark", action="store_true", default=None,
+                       help="trace the wood inside the bark (round timber is taken under bark); by default the "
+                            "whole face is traced and the table says where bark was included")
+    photo.add_argument("--accept-trace", action="store_true", default=None,
+                       help="measure even where the trace check asks for review; the JSON and the table then say "
+                            "the trace was accepted unchecked")
     photo.add_argument("--max-tilt", type=float, default=None, metavar="DEG",
                        help="assumed bound of the camera's tilt to the face without a target (default 5)")
     photo.add_argument("--texture", metavar="LENGTH",
@@ -400,7 +410,11 @@ def _measure(args: argparse.Namespace) -> int:
         from .report import report_format
 
         report_format(args.report)                     # a bad suffix is refused before any work
-    measurement, pm = _read_measurement(args.input, args, name=getattr(args, "name", None))
+    try:
+        measurement, pm = _read_measurement(args.input, args, name=getattr(args, "name", None))
+    except Exception as e:
+        _overlay_of_refused(e, getattr(args, "overlay", None))
+        raise
     seed = DEFAULT_SEED if args.random_seed is None else args.random_seed
     result = measure(measurement, align=args.align, draws=args.draws, seed=seed,
                      characteristic=args.characteristic, torsion=args.torsion)
@@ -444,6 +458,21 @@ def _measure(args: argparse.Namespace) -> int:
         for target, _ in outputs:
             print(f"\n  wrote {target}")
     return 0
+
+
+def _overlay_of_refused(error: Exception, overlay: str | None) -> None:
+    """Where the trace check refused a trace and a review picture was asked for, write it, so
+    that the person can see what was traced (without uncertainties: none were computed)."""
+    from .photo.pipeline import TraceNeedsReview
+
+    if not overlay or not isinstance(error, TraceNeedsReview) or not Path(overlay).parent.is_dir():
+        return
+    from .photo.overlay import write_overlay
+    from .properties import section_properties
+
+    pm = error.photo_measurement
+    write_overlay(overlay, pm, section_properties(pm.measurement.section))
+    print(f"  wrote {overlay} (the refused trace, to review)", file=sys.stderr)
 
 
 def _export(args: argparse.Namespace) -> int:
@@ -550,29 +579,32 @@ def _jobs(text: str) -> int:
 
 
 def _read_measurement(input_path: str, args: argparse.Namespace, *, name: str | None = None):
-    """INPUT (a sheet or a photo, with the photo options in `args`) -> (Measurement, PhotoMeasurement or None)."""
+    """INPUT (a sheet or a photo, with the photo options in `args` over those of the photo's
+    sidecar) -> (Measurement, PhotoMeasurement or None)."""
     from .errors import InputError
     from .sheet import read_sheet
 
     path = Path(input_path)
-    photo_opts = {k: getattr(args, k)
-                  for k in ("target", "scale", "dpi", "known", "seed", "max_tilt", "texture", "lens", "ruler", "pitch",
-                            "ruler_class", "overlay")
-                  if getattr(args, k, None) is not None}
+    given = {k: getattr(args, k) for k in _PHOTO_KEYS + ("overlay",) if getattr(args, k, None) is not None}
     if path.suffix.lower() == ".toml":
-        if photo_opts:
-            raise InputError(f"--{next(iter(photo_opts)).replace('_', '-')} is a photo option; {path} is a sheet")
+        if given:
+            raise InputError(f"--{next(iter(given)).replace('_', '-')} is a photo option; {path} is a sheet")
         return read_sheet(path), None
     from .photo.pipeline import PHOTO_SUFFIXES, measure_photo
+    from .photo.sidecar import layer_options, merge_options, read_sidecar
 
     if path.suffix.lower() not in PHOTO_SUFFIXES and not path.exists():
         raise InputError(f"{path}: no such file")
-    kw = {k: photo_opts[k] for k in ("target", "scale", "dpi", "known", "seed", "texture", "lens", "ruler", "pitch",
-                                     "ruler_class") if k in photo_opts}
-    if "max_tilt" in photo_opts:
-        kw["max_tilt"] = photo_opts["max_tilt"]
-    pm = measure_photo(path, name=name, **kw)
+    side, side_name = read_sidecar(path)
+    cli = layer_options({k: v for k, v in given.items() if k != "overlay"}, "the command line", Path.cwd())
+    kw = merge_options(side, cli)
+    pm = measure_photo(path, name=name or side_name, **kw)
     return pm.measurement, pm
+
+
+#: The photo options the command line passes on (measure_photo keywords).
+_PHOTO_KEYS = ("target", "scale", "dpi", "known", "seed", "outside", "box", "max_tilt", "texture", "lens", "ruler",
+               "pitch", "ruler_class", "under_bark", "accept_trace")
 
 
 def _check(args: argparse.Namespace) -> int:

@@ -35,6 +35,8 @@ def format_table(result: Result, *, units: str = "mm", budget: bool = False, cha
     head.append(f"  from {src.get('kind', 'input')} {where}: {describe_geometry(result)}")
     if "aligned" in src:
         head.append(f"  turned {src['aligned']['rotation_deg']:.6g} deg about the centroid onto its principal axes")
+    if "trace" in src:
+        head.append(f"  {trace_line(src['trace'])}")
     unc = result.uncertainty
     if unc is not None:
         head.append(f"  values ± U: expanded uncertainty U = 2u (k = 2, about 95 % coverage); "
@@ -70,6 +72,31 @@ def format_table(result: Result, *, units: str = "mm", budget: bool = False, cha
     lines.append("")
     lines.append(f"  {CAUTION}")
     return "\n".join(lines)
+
+
+def trace_line(trace: dict) -> str:
+    """One line on a photo's trace: how it was found, the trace check, and bark.
+
+    >>> trace_line({"confidence": 0.91, "needs_review": False, "reasons": [], "hints": {"seed": [[1, 2]]}})
+    'trace: from 1 point on the member; trace check: confidence 0.91, no review needed'
+    """
+    hints = trace.get("hints", {})
+    if hints.get("boundary") == "hand-edited":
+        how = "placed by hand"
+    else:
+        said = [f"{len(hints['seed'])} point{'s' * (len(hints['seed']) > 1)} on the member"] if "seed" in hints else []
+        said += [f"{len(hints['outside'])} on the ground"] if "outside" in hints else []
+        said += ["a box"] if "box" in hints else []
+        how = "from " + ", ".join(said) if said else "found unattended"
+    if trace.get("needs_review"):
+        check = (f"trace check: confidence {trace['confidence']:.2f}, NEEDS REVIEW, accepted unchecked "
+                 f"(--accept-trace): " + "; ".join(trace.get("reasons", [])))
+    else:
+        check = f"trace check: confidence {trace['confidence']:.2f}, no review needed"
+    bark = trace.get("bark")
+    if bark and bark.get("seen"):
+        check += ("; bark included where seen" if bark.get("traced") == "whole face" else "; traced inside the bark")
+    return f"trace: {how}; {check}"
 
 
 def describe_geometry(result: Result) -> str:

@@ -1,24 +1,31 @@
-"""Sub-pixel boundary rings of the member, mapped to millimetres, with their uncertainty.
+"""Sub-pixel boundary rings of the member, found along the normals of the segmented boundary,
+mapped to millimetres, with their uncertainty.
 
-The boundary is the iso-line of the smoothed image, decoded from sRGB levels to light (a lens
-blurs light; see :mod:`tracer.photo.tone`), at the level halfway between the member's and the
-ground's light, found by marching squares to sub-pixel precision [1]_ (see
-:mod:`tracer.photo.isolines`) in a band along the mask's edge (elsewhere the image is replaced by
-the two levels, so texture inside the member and on the ground draws no lines). Only the tiles
-the band passes through are read at full resolution. For a blurred straight edge the half-level
-line is the true edge whatever the blur. Rings are simplified within 0.1 px, mapped through the
-plane map, and this is the one place where image rows (down) turn into y (up).
+The segmentation's boundary (:meth:`Segmentation.rings_px`) is right to about a pixel of its
+grid. Along the outward normal of each of its points, one pixel apart, the photo is read at full
+resolution, in linear light (the sRGB curve undone: a lens blurs light, see
+:mod:`tracer.photo.tone`), lightly smoothed (σ = 0.7 px), in colour. The member's colour and the
+ground's are the medians of the profile's two ends, evened along the boundary; the profile is
+projected on their difference, the one direction of colour that best separates these two
+(Fisher's discriminant for noise alike in every channel [1]_), and scaled so that the ground
+reads 0 and the member 1. The edge is where that profile crosses one half, found to a fraction
+of a sample by linear interpolation: for a blurred straight edge the half-level crossing is the
+true edge whatever the blur. Of several crossings (texture near the edge) the one nearest the
+segmented boundary with a clean step either side is taken; a normal without a clean step keeps
+the segmented boundary and counts against the trace's edge support (:mod:`tracer.photo.check`).
+Rings are simplified within 0.1 px, mapped through the plane map, and this is the one place where
+image rows (down) turn into y (up).
 
-The edge uncertainty comes from the image: the grey-level gradient across the edge and the
-image noise just off it give each point's independent scatter (correlated over the smoothing
-length), and the variation of the two levels along the boundary (uneven light) a systematic
-offset of the whole boundary.
+The edge uncertainty comes from the profiles: the noise of the projected profile off the edge
+over its slope at the crossing is each point's independent scatter (correlated over the blur
+and smoothing length); the scatter of the two levels' estimates, the share of the boundary
+without a clean step, and a floor for blur asymmetry and compression make a systematic offset of
+the whole boundary.
 
 References
 ----------
-.. [1] W. E. Lorensen and H. E. Cline, "Marching cubes: a high resolution 3D surface construction
-       algorithm," *Computer Graphics*, vol. 21, no. 4, pp. 163-169, 1987.
-       doi: 10.1145/37402.37422.
+.. [1] R. A. Fisher, "The use of multiple measurements in taxonomic problems," *Annals of
+       Eugenics*, vol. 7, no. 2, pp. 179-188, 1936. doi: 10.1111/j.1469-1809.1936.tb02137.x.
 """
 
 from __future__ import annotations
@@ -30,24 +37,69 @@ import numpy as np
 
 from ..errors import GeometryError, MeasurementError
 from ..geometry import Section
-from .isolines import Isolines
-from .tone import to_light
 from .scale import PlaneMap
 from .segment import Segmentation
 
-__all__ = ["Trace", "trace_boundary", "coarser_section"]
+__all__ = ["Trace", "trace_boundary", "hand_trace", "coarser_section", "EdgeProfiles"]
 
 # Simplification tolerance of the pixel rings [px].
 _SIMPLIFY_PX = 0.1
-# Smoothing of the image the edge is found on [px]: enough against noise and JPEG blocks, small
-# because smoothing moves curved edges inward by about σ²/(2R) and rounds corners.
+# Smoothing of the photo the profiles are read on [px]: enough against noise and JPEG blocks,
+# small because smoothing moves curved edges inward by about σ²/(2R) and rounds corners.
 _EDGE_SIGMA = 0.7
-# A floor on the systematic edge offset [px]: threshold, blur asymmetry and JPEG ringing.
+# Spacing of the normals along the boundary [px] and of the samples along each [px].
+_SPACING = 1.0
+_SAMPLE = 0.5
+# At most this many normals a ring (a longer ring has them further apart).
+_MAX_NORMALS = 16_000
+# A floor on the systematic edge offset [px]: blur asymmetry and JPEG ringing.
 _OFFSET_FLOOR_PX = 0.15
 # The member's and the ground's light must differ by at least this share of the brighter.
 _MIN_CONTRAST = 0.05
-# Side of the tiles the band along the edge is read in [px].
-_TILE = 32
+# A clean step: the profile reaches this far past the half level within a few px either side,
+# and the step is this many times the profile's noise.
+_CLEAN = 0.25
+_MIN_SNR = 3.0
+# The projected profile's noise is taken as at least this (an 8-bit level's quantisation over a
+# contrast of about a tenth of full scale: (1/255)/√12/0.1).
+_NOISE_FLOOR = 0.011
+# Normals per block read from the photo together.
+_BLOCK = 384
+
+
+@dataclass(frozen=True)
+class EdgeProfiles:
+    """What the normals found along one ring.
+
+    Attributes
+    ----------
+    points : ndarray (N, 2)
+        The edge points [px] (x, y), segmented boundary where no clean step was found.
+    clean : ndarray (N,) bool
+        A clean step was found along this normal.
+    offset : ndarray (N,)
+        The edge's distance from the segmented boundary along the outward normal [px].
+    slope : ndarray (N,)
+        The projected profile's slope at the crossing [per px] (1 over the step's width).
+    noise : ndarray (N,)
+        The projected profile's noise off the edge (its scale: member 1, ground 0).
+    contrast : ndarray (N,)
+        |member - ground| light difference (the projection's length).
+    level_in, level_out : ndarray (N,)
+        Grey light of the member's and the ground's side.
+    level_error : ndarray (N,)
+        How far the errors of the two levels' estimates move the crossing [px] (standard).
+    """
+
+    points: np.ndarray
+    clean: np.ndarray
+    offset: np.ndarray
+    slope: np.ndarray
+    noise: np.ndarray
+    contrast: np.ndarray
+    level_in: np.ndarray
+    level_out: np.ndarray
+    level_error: np.ndarray
 
 
 @dataclass(frozen=True)
@@ -61,156 +113,89 @@ class Trace:
     rings_px : list of ndarray
         Each ring's points in the image [px] (column, row), outer first.
     edge : dict
-        The edge statistics behind the uncertainty: gradient, blur, noise, offset and scatter
-        (px and mm).
+        The edge statistics behind the uncertainty: slope, blur, noise, offset and scatter
+        (px and mm), and the share of the boundary on a clean step.
     pixel_check : dict
         Area and second moments summed over the mask's pixels, for the cross-check.
+    profiles : list of EdgeProfiles
+        Per ring, what the normals found (outer first), for the trace check.
     """
 
     section: Section
     rings_px: list
     edge: dict
     pixel_check: dict
+    profiles: list
 
 
-def trace_boundary(seg: Segmentation, gray: np.ndarray, plane: PlaneMap, *, smoothing_px: float) -> Trace:
-    """Trace the member of `seg` in `gray` to sub-pixel precision and map it with `plane`.
+def trace_boundary(seg: Segmentation, photo, plane: PlaneMap, *, smoothing_px: float = 1.0) -> Trace:
+    """Trace the member of `seg` in `photo` to sub-pixel precision and map it with `plane`.
 
-    The edge is found on the photo with its light evened and only a light smoothing (σ = 1 px):
-    the heavier smoothing that made the mask would pull curved edges inward. Only the band
-    along the mask's edge is read at full resolution, tile by tile; the slowly varying fields
-    (distance to the edge, the levels either side) come from the working copy.
+    Parameters
+    ----------
+    seg : Segmentation
+    photo : Photo
+        The photo (:class:`~tracer.photo.load.Photo`), read in linear light along the normals.
+    plane : PlaneMap
+    smoothing_px : float
+        The texture smoothing of the segmentation [px]: rings smaller than (2 x this)² go.
     """
-    import cv2
     import shapely
 
-    band_r = int(math.ceil(3 * smoothing_px + 3))     # past the mask's own smoothing
-    H, W = seg.shape
-    k = seg.step
-    fs = 1.0 / k                                      # working copy / full size
-    # The working copy's fields over the member's box, with room for the widest window below;
-    # `shift` takes photo pixels to the pixels of that part (field_in, field_at).
-    ys, xs = np.nonzero(seg.mask.any(axis=1))[0], np.nonzero(seg.mask.any(axis=0))[0]
-    room = int(math.ceil((9 * band_r + 2 * _TILE) * fs)) + 2
-    s0, s1 = max(0, ys[0] - room), min(seg.mask.shape[0], ys[-1] + 1 + room)
-    t0, t1 = max(0, xs[0] - room), min(seg.mask.shape[1], xs[-1] + 1 + room)
-    shift = np.array([t0 * k, s0 * k], dtype=float)
-    part = seg.mask[s0:s1, t0:t1]
-    # Signed distance to the mask's edge [full px], positive inside, zero on the edge.
-    m8 = part.astype(np.uint8)
-    d_in = cv2.distanceTransform(m8, cv2.DIST_L2, 5)
-    d_out = cv2.distanceTransform(1 - m8, cv2.DIST_L2, 5)
-    sd = (np.where(part, d_in - 0.5, 0.5 - d_out) / fs).astype(np.float32)
-    inner_s = sd > band_r
-    outer_s = sd < -band_r
-    sm = seg.smooth[s0:s1, t0:t1]
-    level_in = float(np.median(sm[inner_s])) if inner_s.any() else float(np.median(sm[part]))
-    ring_out = outer_s & (sd >= -2 * band_r)
-    level_out = float(np.median(sm[ring_out])) if ring_out.any() else float(seg.threshold)
-    level = 0.5 * (level_in + level_out)
-    # Local levels on either side (uneven light moves both): the edge is where the image
-    # crosses their mean, so a brightness gradient across the photo shifts no edge.
-    win = (_odd((4 * band_r + 1) * fs),) * 2
-    n_in = cv2.blur(inner_s.astype(np.float32), win)
-    n_out = cv2.blur(outer_s.astype(np.float32), win)
-    local_in = cv2.blur(np.where(inner_s, sm, 0).astype(np.float32), win) / np.maximum(n_in, 1e-6)
-    local_out = cv2.blur(np.where(outer_s, sm, 0).astype(np.float32), win) / np.maximum(n_out, 1e-6)
-    mid = np.where((n_in > 0.02) & (n_out > 0.02), 0.5 * (local_in + local_out), level).astype(np.float32)
-    c_in, c_out = level_in - level, level_out - level
-
-    # The member's box, in tiles; the tiles the band passes through are read at full size.
-    r0, r1, c0, c1 = seg.box(pad=band_r + _TILE)
-    R, C = r1 - r0, c1 - c0
-    ty, tx = -(-R // _TILE), -(-C // _TILE)
-    gy, gx = np.mgrid[0:ty, 0:tx]
-    centres = np.column_stack([(c0 + np.minimum((gx.ravel() + 0.5) * _TILE, C - 0.5)),
-                               (r0 + np.minimum((gy.ravel() + 0.5) * _TILE, R - 0.5))])
-    sd_c = seg.field_at(sd, centres - shift).reshape(ty, tx)
-    need = np.abs(sd_c) <= band_r + 0.75 * _TILE + 2.0 / fs + 2.0
-    resid_vals, blocks = [], []
-    block_of = np.full((ty, tx), -1)
-    lines = Isolines(width=C)
-    edges = np.diff(np.pad(need.astype(np.int8), ((0, 0), (1, 1))), axis=1)
-    run_row, run_a = np.nonzero(edges == 1)
-    _, run_b = np.nonzero(edges == -1)
-    halo = 12                                         # room for the σ = 1 and σ = 2 blurs
-    # The light, the distance and the mid level, brought to full size together.
-    fields = np.ascontiguousarray(np.dstack([seg.light[s0:s1, t0:t1], sd, mid]), dtype=np.float32)
-    sx, sy = int(shift[0]), int(shift[1])
-    for j0, j1, a, b in _stacked(run_row, run_a, run_b):   # a few blocks of tiles
-        # A block owns the cells whose top-left pixel is in its tiles; it reads one more row
-        # and column of pixels for their far corners.
-        ra, ca = j0 * _TILE, a * _TILE
-        rb, cb = min(R, j1 * _TILE + 1), min(C, b * _TILE + 1)
-        ya, yb = max(0, r0 + ra - halo), min(H, r0 + rb + halo)
-        xa, xb = max(0, c0 + ca - halo), min(W, c0 + cb + halo)
-        light, sdp, midp = np.moveaxis(seg.field_in(fields, ya - sy, yb - sy, xa - sx, xb - sx), 2, 0)
-        fp = cv2.GaussianBlur(to_light(gray[ya:yb, xa:xb]) / light, (0, 0), _EDGE_SIGMA)
-        inside = (slice(r0 + ra - ya, r0 + rb - ya), slice(c0 + ca - xa, c0 + cb - xa))
-        fi, sdi = fp[inside], sdp[inside]
-        band = np.abs(sdi) <= band_r
-        clean = np.where(band, fi - midp[inside], np.where(sdi > 0, c_in, c_out))
-        lines.add(clean, ra, ca, min(j1 * _TILE, R - 1) - ra, min(b * _TILE, C - 1) - ca)
-        block_of[j0:j1, a:b] = len(blocks)
-        blocks.append((fp, ya - r0, xa - c0))
-        resid = (fp - cv2.GaussianBlur(fp, (0, 0), 2.0))[inside]
-        resid_vals.append(resid[~band].ravel()[::7])
-    offset = np.array([c0, r0], dtype=float)
-    raw = lines.rings()
-    rings = []
-    for xy in raw:                                        # (x = column, y = row) in the box
-        if len(xy) < 8:
-            continue
-        ring = shapely.LinearRing(xy)
-        poly = shapely.Polygon(ring)
-        if poly.area < (2 * smoothing_px) ** 2:
-            continue
-        simple = poly.simplify(_SIMPLIFY_PX, preserve_topology=True)
-        if simple.is_empty or simple.geom_type != "Polygon":
-            continue
-        rings.append(np.asarray(simple.exterior.coords)[:-1] + offset)
+    rings = seg.rings_px()
     if not rings:
         raise MeasurementError("nothing segmented: the member's edge could not be traced")
-    # The outer ring is the largest; holes are the rings inside it.
-    areas = [shapely.Polygon(r).area for r in rings]
-    order = np.argsort(areas)[::-1]
-    outer_ring = rings[order[0]]
-    outer_poly = shapely.Polygon(outer_ring)
-    holes = [rings[k] for k in order[1:] if outer_poly.contains(shapely.Polygon(rings[k]))]
-    outline_mm = plane.to_mm(outer_ring)
-    holes_mm = [plane.to_mm(hh) for hh in holes]
+    reach = float(math.ceil(2.0 * max(seg.step) + 4.0))
+    profiles = []
+    kept = []
+    for i, ring in enumerate(rings):
+        pts, normals = _normals(ring, outward_is_left=(i > 0))
+        if len(pts) < 8:
+            continue
+        prof = _read_profiles(photo, pts, normals, reach)
+        if i == 0 or shapely.Polygon(prof.points).area >= (2 * smoothing_px) ** 2:
+            profiles.append(prof)
+            kept.append(prof.points)
+    if not kept:
+        raise MeasurementError("nothing segmented: the member's edge could not be traced")
+    outer = _clean_ring(kept[0])
+    outer_poly = shapely.Polygon(outer)
+    holes = []
+    for hole in kept[1:]:
+        h = _clean_ring(hole)
+        if h is not None and outer_poly.contains(shapely.Polygon(h)):
+            holes.append(h)
+    if outer is None:
+        raise MeasurementError("nothing segmented: the member's edge could not be traced")
     try:
-        section = Section(outline_mm, holes_mm)
+        section = Section(plane.to_mm(outer), [plane.to_mm(h) for h in holes])
     except GeometryError as e:
         raise MeasurementError(f"the traced boundary is not a valid section ({e}); look at the review picture "
                                "(--overlay) and give --seed X,Y on the member") from None
+    edge = _edge_statistics(profiles, plane, outer)
+    return Trace(section=section, rings_px=[outer] + holes, edge=edge,
+                 pixel_check=_pixel_moments(seg, plane), profiles=profiles)
 
-    # Edge statistics along the traced boundary.
-    pts = np.vstack([outer_ring] + holes)
-    grad = _gradient(blocks, block_of, pts - offset)
-    g_med = float(np.median(grad))
-    contrast = abs(level_in - level_out)
-    relative = contrast / max(level_in, level_out, 1e-6)
-    if g_med <= 0 or relative < _MIN_CONTRAST:
-        raise MeasurementError("the member hardly stands out from its surroundings (their light differs by "
-                               f"{100 * relative:.1f} %); photograph it against a contrasting ground")
-    noise = _robust_spread(np.concatenate(resid_vals) if resid_vals else np.zeros(0))
-    blur = contrast / (math.sqrt(2 * math.pi) * g_med)
-    scatter_px = noise / g_med
-    # What is left of the light's unevenness after the local levels: their scatter along the
-    # boundary, over a longer window, as a share of the gradient (a systematic offset).
-    wide = (_odd((8 * band_r + 1) * fs),) * 2
-    mid_wide = cv2.blur(mid, wide)
-    drift = float(np.std(seg.field_at(mid, pts - shift) - seg.field_at(mid_wide, pts - shift))) / g_med
-    offset_px = math.hypot(drift, _OFFSET_FLOOR_PX)
-    centre = outer_ring.mean(axis=0)
-    s = plane.mm_per_px(centre)
-    edge = {"gradient_per_px": g_med, "contrast": contrast, "blur_px": blur, "noise": noise,
-            "offset_px": offset_px, "scatter_px": scatter_px, "correlation_px": math.hypot(blur, _EDGE_SIGMA),
-            "mm_per_px": s, "offset_mm": offset_px * s, "scatter_mm": scatter_px * s,
-            "correlation_mm": math.hypot(blur, _EDGE_SIGMA) * s}
-    return Trace(section=section, rings_px=[outer_ring] + holes, edge=edge,
-                 pixel_check=_pixel_moments(seg, plane, (r0, r1, c0, c1)))
+
+def hand_trace(points: list, holes: list, plane: PlaneMap, *, allowance_px: float = 0.5) -> Trace:
+    """A boundary placed by hand (image pixels), mapped with `plane`; its edge statistics are the
+    hand-placement allowance `allowance_px`, as a systematic offset and as each point's scatter.
+
+    Raises
+    ------
+    MeasurementError
+        The rings do not make a valid section (they cross, a hole lies outside the outline).
+    """
+    outer = np.asarray(points, float)
+    rings = [np.asarray(h, float) for h in holes]
+    try:
+        section = Section(plane.to_mm(outer), [plane.to_mm(h) for h in rings])
+    except GeometryError as e:
+        raise MeasurementError(f"the hand-edited boundary ([trace]) is not a valid section: {e}") from None
+    s = plane.mm_per_px(outer.mean(axis=0))
+    edge = {"offset_px": allowance_px, "scatter_px": allowance_px, "correlation_px": 0.0, "mm_per_px": s,
+            "offset_mm": allowance_px * s, "scatter_mm": allowance_px * s, "correlation_mm": 0.0}
+    return Trace(section=section, rings_px=[outer] + rings, edge=edge, pixel_check={}, profiles=[])
 
 
 def coarser_section(trace: Trace, plane: PlaneMap, tolerance_px: float) -> Section:
@@ -227,77 +212,252 @@ def coarser_section(trace: Trace, plane: PlaneMap, tolerance_px: float) -> Secti
     return Section(plane.to_mm(rings[0]), [plane.to_mm(h) for h in rings[1:]])
 
 
-def _gradient(blocks: list, block_of: np.ndarray, pts: np.ndarray) -> np.ndarray:
-    """|grad f| at points (x, y) of the box, by central differences of bilinear samples of the
-    blocks' smoothed images (`block_of`: the block of each tile)."""
-    tile = np.clip((pts[:, ::-1] // _TILE).astype(int), 0, np.array(block_of.shape) - 1)
-    which = block_of[tile[:, 0], tile[:, 1]]
-    grad = np.zeros(len(pts))
-    for b in np.unique(which[which >= 0]):            # a loop over blocks
-        sel = which == b
-        fp, ya, xa = blocks[b]
-        q = pts[sel] - (xa, ya)
-        grad[sel] = np.hypot(_sample(fp, q + (1.0, 0.0)) - _sample(fp, q - (1.0, 0.0)),
-                             _sample(fp, q + (0.0, 1.0)) - _sample(fp, q - (0.0, 1.0))) / 2.0
-    return grad[which >= 0]
+# ---------------------------------------------------------------------------------------------
+def _normals(ring: np.ndarray, *, outward_is_left: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Points evenly spaced along a closed ring and the unit normals pointing away from the
+    member (a hole's ring: into the hole)."""
+    closed = np.vstack([ring, ring[:1]])
+    seg = np.hypot(*np.diff(closed, axis=0).T)
+    s = np.concatenate([[0.0], np.cumsum(seg)])
+    length = s[-1]
+    n = int(min(_MAX_NORMALS, max(8, round(length / _SPACING))))
+    t = np.arange(n) * (length / n)
+    pts = np.column_stack([np.interp(t, s, closed[:, 0]), np.interp(t, s, closed[:, 1])])
+    tang = np.roll(pts, -1, axis=0) - np.roll(pts, 1, axis=0)
+    tang /= np.maximum(np.hypot(*tang.T), 1e-12)[:, None]
+    # A ring with a positive shoelace sum in (x, y-down) coordinates has its inside on the left
+    # of its direction, (-ty, tx) in those coordinates; the outward normal is the opposite.
+    area2 = float(np.sum(pts[:, 0] * np.roll(pts[:, 1], -1) - np.roll(pts[:, 0], -1) * pts[:, 1]))
+    away = np.column_stack([tang[:, 1], -tang[:, 0]])
+    outward = away if area2 > 0 else -away
+    if outward_is_left:                                          # a hole: away from the member is inward
+        outward = -outward
+    return pts, outward
 
 
-def _stacked(rows: np.ndarray, starts: np.ndarray, ends: np.ndarray) -> list[tuple[int, int, int, int]]:
-    """Runs of tiles (row, first, past-last column) stacked into blocks (first row, past-last
-    row, first, past-last column) where runs in consecutive rows span the same columns."""
-    open_: dict[tuple[int, int], list[int]] = {}
-    blocks: list[list[int]] = []
-    for j, a, b in zip(rows.tolist(), starts.tolist(), ends.tolist()):   # a loop over runs
-        block = open_.get((a, b))
-        if block is not None and block[1] == j:
-            block[1] = j + 1
-        else:
-            block = [j, j + 1, a, b]
-            open_[(a, b)] = block
-            blocks.append(block)
-    return [tuple(x) for x in blocks]
+def _read_profiles(photo, pts: np.ndarray, normals: np.ndarray, reach: float) -> EdgeProfiles:
+    """Read the photo along the normals and find each one's edge (see the module notes).
+
+    Twice: first with the two levels taken at the profile's ends, then with them taken either
+    side of the edge first found, clear of its blur (2.5 σ away), reading longer profiles where
+    the blur asks for it. Levels taken closer on one side than the other would move the half
+    level towards the nearer side (by about 0.07 px at σ = 2 px, 0.4 px at 3 px, measured on
+    renders: the segmentation's boundary lies on the darker side of a blurred edge).
+    """
+    t, prof = _sample(photo, pts, normals, reach)
+    n = len(pts)
+    first = _locate(prof, t, np.zeros(n), np.full(n, reach / 3.0), reach / 3.0 * 2.0)
+    clean = first["clean"]
+    if not clean.any():
+        return _profiles(pts, normals, first)
+    sigma = float(np.median(1.0 / (math.sqrt(2 * math.pi) * np.maximum(first["slope"][clean], 1e-6))))
+    gap = 2.5 * math.hypot(sigma, 0.0) + 1.0
+    width = max(3.0, 2.0 * sigma)
+    far = float(np.percentile(np.abs(first["offset"][clean]), 95))
+    need = math.ceil(far + gap + width + 1.0)
+    if need > reach:
+        t, prof = _sample(photo, pts, normals, float(min(need, 4 * reach)))
+    centre = np.where(clean, first["offset"], 0.0)
+    second = _locate(prof, t, centre, np.full(n, gap), width)
+    return _profiles(pts, normals, second)
 
 
-def _odd(size: float) -> int:
-    """The odd window size nearest `size`, at least 3."""
-    return max(3, int(round(size)) | 1)
-
-
-def _sample(img: np.ndarray, pts: np.ndarray) -> np.ndarray:
-    """Bilinear samples of `img` at (x, y) points."""
+def _sample(photo, pts: np.ndarray, normals: np.ndarray, reach: float) -> tuple[np.ndarray, np.ndarray]:
+    """Linear light (BGR), lightly smoothed, at -reach..reach px along each normal."""
     import cv2
 
-    m = pts.astype(np.float32)
-    return cv2.remap(img.astype(np.float32, copy=False), m[:, 0:1], m[:, 1:2], cv2.INTER_LINEAR,
-                     borderMode=cv2.BORDER_REPLICATE).ravel()
+    H, W = photo.shape
+    t = np.arange(-reach, reach + 1e-9, _SAMPLE)
+    M = len(t)
+    n = len(pts)
+    prof = np.empty((n, M, 3), np.float32)
+    for a in range(0, n, _BLOCK):                                # blocks of neighbouring normals
+        b = min(n, a + _BLOCK)
+        xy = pts[a:b, None, :] + t[None, :, None] * normals[a:b, None, :]
+        c0 = max(0, int(math.floor(xy[..., 0].min())) - 4)
+        c1 = min(W, int(math.ceil(xy[..., 0].max())) + 5)
+        r0 = max(0, int(math.floor(xy[..., 1].min())) - 4)
+        r1 = min(H, int(math.ceil(xy[..., 1].max())) + 5)
+        light = cv2.GaussianBlur(photo.light_in(r0, r1, c0, c1), (0, 0), _EDGE_SIGMA)
+        mx = (xy[..., 0] - c0).astype(np.float32)
+        my = (xy[..., 1] - r0).astype(np.float32)
+        prof[a:b] = cv2.remap(light, mx, my, cv2.INTER_LINEAR, borderMode=cv2.BORDER_REPLICATE)
+    return t, prof
 
 
-def _robust_spread(vals: np.ndarray) -> float:
-    """Noise of the edge image: robust spread (1.4826 MAD) of its fine residual off the edge."""
-    if not len(vals):
-        return 0.0
-    return float(1.4826 * np.median(np.abs(vals - np.median(vals))))
+def _locate(prof: np.ndarray, t: np.ndarray, centre: np.ndarray, gap: np.ndarray, width: float) -> dict:
+    """The edge along each normal, the two levels taken over `width` px starting `gap` px either
+    side of `centre` (each normal's, px), the crossing nearest the centre."""
+    n, M, _ = prof.shape
+    L = max(2, int(round(width / _SAMPLE)))
+    rows = np.arange(n)[:, None]
+
+    def side(start: np.ndarray) -> np.ndarray:
+        i0 = np.clip(np.round((start - t[0]) / _SAMPLE).astype(int), 0, M - L)
+        return prof[rows, i0[:, None] + np.arange(L)[None, :]]            # (n, L, 3)
+
+    win_in = side(centre - gap - width)
+    win_out = side(centre + gap)
+    c_in = _smooth_along(np.median(win_in, axis=1), 6.0)
+    c_out = _smooth_along(np.median(win_out, axis=1), 6.0)
+    d = c_in - c_out
+    dd = np.maximum(np.einsum("nc,nc->n", d, d), 1e-12)
+    g = np.einsum("nmc,nc->nm", prof - c_out[:, None, :], d) / dd[:, None]
+    gin = np.einsum("nlc,nc->nl", win_in - c_out[:, None, :], d) / dd[:, None]
+    gout = np.einsum("nlc,nc->nl", win_out - c_out[:, None, :], d) / dd[:, None]
+    # Noise of the projected profile on its two flat sides (robust spread about their medians).
+    lo = gin - np.median(gin, axis=1, keepdims=True)
+    hi = gout - np.median(gout, axis=1, keepdims=True)
+    noise = np.maximum(1.4826 * np.median(np.abs(np.concatenate([lo, hi], axis=1)), axis=1), _NOISE_FLOOR)
+    # Downward crossings of one half, to a fraction of a sample.
+    a, b = g[:, :-1], g[:, 1:]
+    cross = (a >= 0.5) & (b < 0.5)
+    frac = np.where(cross, (a - 0.5) / np.where(cross, a - b, 1.0), 0.0)
+    tc = t[:-1][None, :] + frac * _SAMPLE
+    # Clean: within a few px before the crossing the profile is well above one half, after it
+    # well below (a step, not a wiggle of texture).
+    win = max(3, int(round(3.0 / _SAMPLE)))
+    before = _running(g, win, np.maximum, back=True)[:, :-1]
+    after = _running(g, win, np.minimum, back=False)[:, 1:]
+    clean_x = cross & (before >= 1.0 - _CLEAN) & (after <= _CLEAN)
+    # The clean crossing nearest the centre.
+    dist = np.where(clean_x, np.abs(tc - centre[:, None]), np.inf)
+    k = np.argmin(dist, axis=1)
+    r = np.arange(n)
+    found = np.isfinite(dist[r, k])
+    offset = np.where(found, tc[r, k], 0.0)
+    slope = np.where(found, (a[r, k] - b[r, k]) / _SAMPLE, 0.0)
+    clean = found & (1.0 / np.maximum(noise, 1e-6) >= _MIN_SNR)
+    # Each level is a median of `width` px (samples about 1.5 px apart are independent after
+    # the smoothing), evened over about 6 normals: its error over the slope moves the edge.
+    n_eff = max(1.0, width / 1.5) * 6.0
+    level_error = np.where(slope > 0, noise / np.sqrt(n_eff) / np.maximum(slope, 1e-6), 0.0)
+    grey = np.array([0.114, 0.587, 0.299], np.float32)            # BGR weights, as the grey levels
+    return {"clean": clean, "offset": np.where(clean, offset, 0.0), "slope": slope, "noise": noise,
+            "contrast": np.sqrt(dd), "level_in": c_in @ grey, "level_out": c_out @ grey, "level_error": level_error}
 
 
-def _pixel_moments(seg: Segmentation, plane: PlaneMap, box: tuple[int, int, int, int]) -> dict:
+def _profiles(pts: np.ndarray, normals: np.ndarray, found: dict) -> EdgeProfiles:
+    offset = _fill_gaps(found["offset"], found["clean"])
+    return EdgeProfiles(points=pts + offset[:, None] * normals, clean=found["clean"], offset=offset,
+                        slope=found["slope"], noise=found["noise"], contrast=found["contrast"],
+                        level_in=found["level_in"], level_out=found["level_out"], level_error=found["level_error"])
+
+
+def _running(g: np.ndarray, win: int, op, *, back: bool) -> np.ndarray:
+    """Running max/min of each row over the `win` samples before (back) or after each sample."""
+    out = g.copy()
+    shifted = g
+    for _ in range(win):                                           # a few shifts of whole arrays
+        shifted = np.concatenate([shifted[:, :1], shifted[:, :-1]], axis=1) if back else \
+            np.concatenate([shifted[:, 1:], shifted[:, -1:]], axis=1)
+        out = op(out, shifted)
+    return out
+
+
+def _fill_gaps(offset: np.ndarray, good: np.ndarray) -> np.ndarray:
+    """Offsets of normals without a clean step: interpolated between the clean ones on either side
+    along the ring where they are near (a few normals), else 0 (the segmented boundary)."""
+    n = len(offset)
+    if good.all() or not good.any():
+        return offset
+    idx = np.nonzero(good)[0]
+    pos = np.arange(n)
+    ext = np.concatenate([idx - n, idx, idx + n])
+    val = np.concatenate([offset[idx]] * 3)
+    filled = np.interp(pos, ext, val)
+    # Distance to the nearest clean normal along the ring.
+    right = ext[np.searchsorted(ext, pos)]
+    left = ext[np.searchsorted(ext, pos, side="right") - 1]
+    near = np.minimum(right - pos, pos - left) <= 4
+    return np.where(good, offset, np.where(near, filled, 0.0))
+
+
+def _smooth_along(v: np.ndarray, sigma: float) -> np.ndarray:
+    """Gaussian smoothing of per-normal values along a closed ring (circular)."""
+    n = len(v)
+    r = int(min(n // 2 - 1, math.ceil(3 * sigma)))
+    if r < 1:
+        return v
+    k = np.exp(-0.5 * (np.arange(-r, r + 1) / sigma) ** 2)
+    k /= k.sum()
+    padded = np.concatenate([v[-r:], v, v[:r]])
+    return np.stack([np.convolve(padded[:, j], k, mode="valid") for j in range(v.shape[1])], axis=1) \
+        if v.ndim == 2 else np.convolve(padded, k, mode="valid")
+
+
+def _clean_ring(points: np.ndarray) -> np.ndarray | None:
+    """A simple ring from the edge points: made valid (a crossing of neighbouring normals at a
+    tight concave corner leaves a tiny loop), its largest part, simplified within 0.1 px."""
+    import shapely
+
+    poly = shapely.Polygon(points)
+    if not poly.is_valid:
+        poly = shapely.make_valid(poly)
+        parts = [g for g in getattr(poly, "geoms", [poly]) if g.geom_type == "Polygon"]
+        if not parts:
+            return None
+        poly = max(parts, key=lambda g: g.area)
+        poly = shapely.Polygon(poly.exterior)
+    simple = poly.simplify(_SIMPLIFY_PX, preserve_topology=True)
+    if simple.is_empty or simple.geom_type != "Polygon" or len(simple.exterior.coords) < 4:
+        return None
+    return np.asarray(simple.exterior.coords)[:-1]
+
+
+def _edge_statistics(profiles: list[EdgeProfiles], plane: PlaneMap, outer: np.ndarray) -> dict:
+    """The numbers behind the edge's uncertainty (see the module notes)."""
+    clean = np.concatenate([p.clean for p in profiles])
+    if not clean.any():
+        raise MeasurementError("the member's edge shows no clean step anywhere along its boundary; photograph it "
+                               "against a contrasting ground, or check the review picture (--overlay)")
+    slope = np.concatenate([p.slope for p in profiles])[clean]
+    noise = np.concatenate([p.noise for p in profiles])[clean]
+    contrast = np.concatenate([p.contrast for p in profiles])[clean]
+    lin = np.concatenate([p.level_in for p in profiles])[clean]
+    lout = np.concatenate([p.level_out for p in profiles])[clean]
+    relative = float(np.median(contrast / np.maximum(np.maximum(lin, lout), 1e-6)))
+    if relative < _MIN_CONTRAST:
+        raise MeasurementError("the member hardly stands out from its surroundings (their light differs by "
+                               f"{100 * relative:.1f} %); photograph it against a contrasting ground")
+    g = float(np.median(slope))
+    scatter_px = float(np.median(noise / np.maximum(slope, 1e-6)))
+    blur = 1.0 / (math.sqrt(2 * math.pi) * max(g, 1e-6))           # a Gaussian edge's σ from its slope
+    level_px = float(np.median(np.concatenate([p.level_error for p in profiles])[clean]))
+    share = float(clean.mean())
+    # Where no clean step was found the segmented boundary stands, right to about a pixel.
+    unsupported_px = (1.0 - share) * 1.0
+    offset_px = math.sqrt(_OFFSET_FLOOR_PX ** 2 + level_px ** 2 + unsupported_px ** 2)
+    centre = outer.mean(axis=0)
+    s = plane.mm_per_px(centre)
+    corr = math.hypot(blur, _EDGE_SIGMA)
+    return {"gradient_per_px": g, "contrast": float(np.median(contrast)), "blur_px": blur,
+            "noise": float(np.median(noise)), "offset_px": offset_px, "scatter_px": scatter_px,
+            "correlation_px": corr, "mm_per_px": s, "offset_mm": offset_px * s, "scatter_mm": scatter_px * s,
+            "correlation_mm": corr * s, "clean_share": share}
+
+
+def _pixel_moments(seg: Segmentation, plane: PlaneMap) -> dict:
     """A and centroidal second moments summed over the mask's pixels, each a small area at its
-    place, over the photo's rows r0:r1 and columns c0:c1 (`box`)."""
-    r0, r1, c0, c1 = box
-    fs2 = 1.0 / seg.step ** 2
-    # Every k-th pixel of every k-th row, each standing for k x k pixels: plenty for a check.
-    k = max(1, int(math.sqrt(seg.mask.sum() / fs2 / 30_000)))
-    gx, gy = np.meshgrid(np.arange(c0 + k // 2, c1, k), np.arange(r0 + k // 2, r1, k))
-    grid = np.column_stack([gx.ravel(), gy.ravel()]).astype(np.float64)
-    if min(gx.shape) < 2:
+    place in the mm plane (every k-th pixel of every k-th row, each standing for k x k)."""
+    mask = seg.mask
+    k = max(1, int(math.sqrt(mask.sum() / 30_000)))
+    sub = mask[k // 2::k, k // 2::k]
+    if min(sub.shape) < 2:
         return {"A": 0.0, "Ix": 0.0, "Iy": 0.0}
-    inside = seg.field_at(seg.mask.astype(np.float32), grid) > 0.5
-    # The lattice mapped once; each point's area from the mapped lattice around it.
-    mm = plane.to_mm(grid).reshape(gx.shape + (2,))
-    dx = np.gradient(mm, axis=1) / k
-    dy = np.gradient(mm, axis=0) / k
-    area = (np.abs(dx[..., 0] * dy[..., 1] - dx[..., 1] * dy[..., 0]) * (k * k)).ravel()[inside]
+    jj, ii = np.mgrid[k // 2:mask.shape[0]:k, k // 2:mask.shape[1]:k]
+    grid = seg.to_full(np.column_stack([ii.ravel(), jj.ravel()]).astype(np.float64))
+    mm = plane.to_mm(grid).reshape(ii.shape + (2,))
+    sx, sy = seg.step
+    dx = np.gradient(mm, axis=1) / (k * sx)
+    dy = np.gradient(mm, axis=0) / (k * sy)
+    area = (np.abs(dx[..., 0] * dy[..., 1] - dx[..., 1] * dy[..., 0]) * (k * sx) * (k * sy)).ravel()
+    inside = sub.ravel()
+    area = area[inside]
     mm = mm.reshape(-1, 2)[inside]
     A = float(area.sum())
+    if A <= 0:
+        return {"A": 0.0, "Ix": 0.0, "Iy": 0.0}
     c = (area[:, None] * mm).sum(axis=0) / A
     d = mm - c
     return {"A": A, "Ix": float((area * d[:, 1] ** 2).sum()), "Iy": float((area * d[:, 0] ** 2).sum())}

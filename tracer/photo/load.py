@@ -37,7 +37,7 @@ class Photo:
     gray : ndarray (H, W) float32
         Luminance, 0 to 1 (8 and 16 bit inputs alike), made on first use.
     color : ndarray (H, W, 3) uint8
-        BGR picture for the review overlay, decoded on first use.
+        The BGR picture: the member is found by its colour, and the review picture drawn on it.
     """
 
     levels: np.ndarray
@@ -46,7 +46,7 @@ class Photo:
     path: str
     sha256: str
     _color: np.ndarray | None = field(default=None, repr=False)
-    _data: bytes | None = field(default=None, repr=False)
+    _fine: np.ndarray | None = field(default=None, repr=False)
 
     @property
     def shape(self) -> tuple[int, int]:
@@ -56,13 +56,18 @@ class Photo:
     def gray(self) -> np.ndarray:
         return as_unit(self.levels)
 
-    @cached_property
+    @property
     def color(self) -> np.ndarray:
-        if self._color is not None:
-            return self._color
-        import cv2
+        return self._color
 
-        return cv2.imdecode(np.frombuffer(self._data, np.uint8), cv2.IMREAD_COLOR)
+    def light_in(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        """Linear light (sRGB decoded, :mod:`tracer.photo.tone`) of rows r0:r1, columns c0:c1,
+        as float32 (h, w, 3) in BGR order, 0 to 1; 16-bit files keep their finer levels."""
+        from .tone import LIGHT_OF_8BIT, to_light
+
+        if self._fine is not None:
+            return to_light(self._fine[r0:r1, c0:c1])
+        return LIGHT_OF_8BIT[self._color[r0:r1, c0:c1]]
 
 
 def as_unit(img: np.ndarray) -> np.ndarray:
@@ -102,7 +107,8 @@ def load_photo(path: str | Path, *, max_pixels: int = MAX_PIXELS) -> Photo:
         dpi = im.info.get("dpi")
         fast = _decode_8bit(data) if im.mode in ("RGB", "L", "YCbCr", "CMYK") and im.format in _FAST else None
         if fast is not None:
-            return Photo(levels=fast, alpha=None, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data), _data=data)
+            color, gray = fast
+            return Photo(levels=gray, alpha=None, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data), _color=color)
         im = ImageOps.exif_transpose(im)
         arr, alpha = _to_array(im)
     except InputError:
@@ -111,8 +117,9 @@ def load_photo(path: str | Path, *, max_pixels: int = MAX_PIXELS) -> Photo:
         raise InputError(f"{p}: not a readable image; use a JPEG, PNG, TIFF, WebP or BMP file") from None
     except (OSError, ValueError, SyntaxError) as e:
         raise InputError(f"{p}: not a readable image ({e}); use a JPEG, PNG, TIFF, WebP or BMP file") from None
-    gray, color = _gray_and_color(arr)
-    return Photo(levels=gray, alpha=alpha, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data), _color=color)
+    gray, color, fine = _gray_and_color(arr)
+    return Photo(levels=gray, alpha=alpha, dpi=_dpi(dpi), path=str(p), sha256=sha256_of(data), _color=color,
+                 _fine=fine)
 
 
 def _dpi(dpi) -> float | None:
@@ -123,12 +130,16 @@ def _dpi(dpi) -> float | None:
     return v if v > 1 else None
 
 
-def _decode_8bit(data: bytes) -> np.ndarray | None:
-    """OpenCV's decoder, straight to grey, for 8-bit files without alpha (faster; it applies
-    the EXIF orientation). The colour picture is decoded only if a picture is drawn."""
+def _decode_8bit(data: bytes) -> tuple[np.ndarray, np.ndarray] | None:
+    """OpenCV's decoder for 8-bit files without alpha (faster; it applies the EXIF orientation):
+    the colour picture (BGR), which the member is found in, and its grey levels (ITU-R BT.601
+    weights, as the JPEG decoder's own grey), which targets and rulers are read in."""
     import cv2
 
-    return cv2.imdecode(np.frombuffer(data, np.uint8), cv2.IMREAD_GRAYSCALE)
+    color = cv2.imdecode(np.frombuffer(data, np.uint8), cv2.IMREAD_COLOR)
+    if color is None:
+        return None
+    return color, cv2.cvtColor(color, cv2.COLOR_BGR2GRAY)
 
 
 def _to_array(im) -> tuple[np.ndarray, np.ndarray | None]:
@@ -151,12 +162,12 @@ def _to_array(im) -> tuple[np.ndarray, np.ndarray | None]:
     return np.asarray(im.convert("RGB"), dtype=np.float32) / 255.0, None
 
 
-def _gray_and_color(arr: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _gray_and_color(arr: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Grey levels (float 0..1), the BGR picture (uint8) and the BGR levels at full depth (float)."""
     if arr.ndim == 2:
-        gray = arr.astype(np.float32)
-        c = np.clip(gray * 255.0 + 0.5, 0, 255).astype(np.uint8)
-        return gray, np.stack([c, c, c], axis=2)
+        arr = np.repeat(arr[..., None], 3, axis=2)
     rgb = arr[..., :3]
     gray = (0.299 * rgb[..., 0] + 0.587 * rgb[..., 1] + 0.114 * rgb[..., 2]).astype(np.float32)
-    color = np.clip(rgb[..., ::-1] * 255.0 + 0.5, 0, 255).astype(np.uint8)
-    return gray, np.ascontiguousarray(color)
+    fine = np.ascontiguousarray(rgb[..., ::-1], dtype=np.float32)
+    color = np.clip(fine * 255.0 + 0.5, 0, 255).astype(np.uint8)
+    return gray, color, fine

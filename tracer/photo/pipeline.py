@@ -9,7 +9,7 @@ profile corrects distortion.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -18,17 +18,21 @@ from ..errors import GeometryError, InputError, MeasurementError
 from ..measurement import Measurement
 from ..uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError, TiltAllowance
 from ..units import parse_length
-from .contour import Trace, coarser_section, trace_boundary
+from .bark import find_bark
+from .check import TraceCheck, check_trace
+from .contour import Trace, coarser_section, hand_trace, trace_boundary
+from .hints import Hints, make_hints
 from .lens import LensProfile, read_profile
 from .load import Photo, load_photo
 from .ruler import MIN_TICKS, RulerReading, pitch_check
 from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_ruler,
                     map_from_target, map_from_two_rulers, parse_target, parse_two_points)
 from .segment import Segmentation, segment_member
+from .sidecar import parse_trace
 from .tone import to_light
 from .view import camera_view, image_side, side_faces
 
-__all__ = ["PhotoMeasurement", "measure_photo", "PHOTO_SUFFIXES", "DEFAULT_TEXTURE_MM"]
+__all__ = ["PhotoMeasurement", "TraceNeedsReview", "measure_photo", "PHOTO_SUFFIXES", "DEFAULT_TEXTURE_MM"]
 
 #: File suffixes read as photos.
 PHOTO_SUFFIXES = (".jpg", ".jpeg", ".png", ".tif", ".tiff", ".webp", ".bmp")
@@ -40,6 +44,9 @@ _CHECK_FACTOR = 3.0
 # The Monte Carlo draws perturb a copy of the trace simplified within this many pixels (the
 # trace itself: 0.1 px); the reported u is the linear one, checked by the draws.
 _MC_SIMPLIFY_PX = 0.5
+# The allowance of a boundary placed by hand [px]: a person clicking on a zoomed photo puts a point
+# within about half a pixel of the edge they see (common practice).
+_HAND_PX = 0.5
 
 
 @dataclass(frozen=True)
@@ -49,15 +56,26 @@ class PhotoMeasurement:
     measurement: Measurement
     photo: Photo
     plane: PlaneMap
-    segmentation: Segmentation
+    segmentation: Segmentation | None
     trace: Trace
+    check: TraceCheck | None = None
+
+
+class TraceNeedsReview(MeasurementError):
+    """The trace check asks for review (exit status 1); `photo_measurement` holds what was
+    traced, for the review picture."""
+
+    def __init__(self, message: str, photo_measurement: PhotoMeasurement) -> None:
+        super().__init__(message)
+        self.photo_measurement = photo_measurement
 
 
 def measure_photo(path: str | Path, *, target: str | None = None, scale: str | None = None,
-                  dpi: float | None = None, known: str | None = None, seed: str | None = None,
+                  dpi: float | None = None, known: str | None = None, seed=None, outside=None, box=None,
                   max_tilt: float = DEFAULT_MAX_TILT, texture: str | None = None,
                   name: str | None = None, lens: "str | Path | LensProfile | None" = None,
-                  ruler: str | None = None, pitch: str | None = None, ruler_class: str = "II") -> PhotoMeasurement:
+                  ruler: str | None = None, pitch: str | None = None, ruler_class: str = "II",
+                  under_bark: bool = False, trace: dict | None = None, accept_trace: bool = False) -> PhotoMeasurement:
     """Measure the member in the photo at `path`.
 
     Parameters
@@ -73,8 +91,11 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         ``depth=LENGTH`` or ``width=LENGTH``: one caliper reading of the member's overall depth
         (image up-down) or width (image across). Alone it sets the scale; with a target it is a
         cross-check, reported in per cent.
-    seed : str, optional
-        ``X,Y``, a pixel on the member.
+    seed, outside : str or list, optional
+        Points on the member and on the ground: ``X,Y`` texts or [x, y] pairs [px]
+        (:mod:`tracer.photo.hints`).
+    box : str or list, optional
+        ``X0,Y0,X1,Y1``, a rough box round the face [px].
     max_tilt : float
         Assumed bound of the tilt [deg] without a target.
     texture : str, optional
@@ -90,6 +111,15 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         The ruler's graduation (default 1mm; also 1/16in, 1/32in).
     ruler_class : str
         The rule's accuracy class, I, II (default, common for folding rules and tapes) or III.
+    under_bark : bool
+        Trace the wood inside the bark where bark is seen (round timber is taken under bark);
+        by default the whole face is traced and the table says where bark was included.
+    trace : dict, optional
+        A boundary edited by hand, ``{"points": [[x, y], ...], "holes": [[[x, y], ...]]}`` [px]
+        (a sidecar's ``[trace]``): it replaces the automatic trace and carries a hand-placement
+        allowance in its uncertainty.
+    accept_trace : bool
+        Measure even where the trace check asks for review (the JSON then says so).
 
     Raises
     ------
@@ -97,8 +127,12 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         Bad options or an unreadable file (exit status 2).
     MeasurementError
         No target found, nothing segmented, the member cut off (exit status 1).
+    TraceNeedsReview
+        The trace check asks for review and `accept_trace` is not set (exit status 1).
     """
+    hints = make_hints(seed, outside, box)
     photo = load_photo(path)
+    hints.check(*photo.shape[::-1])
     given = [k for k, v in (("--target", target), ("--scale", scale), ("--dpi", dpi), ("--ruler", ruler))
              if v is not None]
     if len(given) > 1:
@@ -140,47 +174,58 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         plane = _pixels_plane(profile)
     if plane.record["method"] != "ruler":               # a ruler's map is made again where the member is
         warnings += plane.warnings
-    seed_xy = None
-    if seed is not None:
-        try:
-            sx, sy = (float(v) for v in seed.split(","))
-        except ValueError:
-            raise InputError(f"--seed {seed!r}: write a pixel position as X,Y") from None
-        seed_xy = (sx, sy)
     centre = np.array(photo.shape[::-1], float) / 2
     px_per_mm = 1.0 / plane.mm_per_px(centre)
     texture_mm = parse_length(texture, field="--texture") if texture else DEFAULT_TEXTURE_MM
     texture_px = max(2.0, texture_mm * px_per_mm)
     if plane.record["method"] == "pixels":        # no scale yet: texture as a share of the photo
         texture_px = max(2.0, 0.002 * float(np.hypot(*photo.shape)))
-    seg = segment_member(photo.levels, texture_px=texture_px, seed=seed_xy, keep_out=plane.keep_out,
-                         alpha=photo.alpha)
     smoothing = max(1.0, 0.25 * texture_px)
-    trace = trace_boundary(seg, photo.levels, plane, smoothing_px=smoothing)
+    bark = None
+    if trace is not None:
+        seg = None
+        drawn = parse_trace(trace, "trace")
+
+        def retrace(plane_: PlaneMap) -> Trace:
+            return hand_trace(drawn["points"], drawn["holes"], plane_, allowance_px=_HAND_PX)
+    else:
+        seg = segment_member(photo, texture_px=texture_px, hints=hints, keep_out=plane.keep_out)
+        bark = find_bark(seg, photo)
+        if under_bark and bark.seen:
+            seg = replace(seg, mask=bark.wood)
+
+        def retrace(plane_: PlaneMap) -> Trace:
+            return trace_boundary(seg, photo, plane_, smoothing_px=smoothing)
+    trace_ = retrace(plane)
     if plane.record["method"] == "ruler":
         # The scale where the member lies along the ruler (its period changes under perspective).
-        plane = map_from_ruler(reading, pitch_mm, at_px=trace.rings_px[0].mean(axis=0), max_tilt=max_tilt,
+        plane = map_from_ruler(reading, pitch_mm, at_px=trace_.rings_px[0].mean(axis=0), max_tilt=max_tilt,
                                ruler_class=ruler_class)
-        trace = trace_boundary(seg, photo.levels, plane, smoothing_px=smoothing)
+        trace_ = retrace(plane)
         warnings += list(plane.warnings)
     if known_dim is not None:
         which, length = known_dim
-        x0, y0, x1, y1 = trace.section.bounds
+        x0, y0, x1, y1 = trace_.section.bounds
         measured = (y1 - y0) if which == "depth" else (x1 - x0)
         if plane.record["method"] == "pixels":
             plane = _known_plane(which, length, measured, max_tilt, profile)
             warnings += plane.warnings
-            trace = trace_boundary(seg, photo.levels, plane, smoothing_px=smoothing)
+            trace_ = retrace(plane)
         else:
             diff = 100.0 * (measured / length - 1.0)
             plane.record["known_check"] = {which: length, "measured_mm": measured, "difference_percent": diff}
             warnings.append(f"cross-check: the traced {which} is {measured:.1f} mm against the {length:.1f} mm read; "
                             f"{diff:+.2f} %")
+    trace = trace_
     edge = trace.edge
 
-    comps = [BoundaryOffset(edge["offset_mm"], label="edge offset (threshold, light)"),
-             PointNoise(edge["scatter_mm"], correlation_length=edge["correlation_mm"], direction="normal",
-                        label="edge scatter")]
+    if seg is None:
+        comps = [BoundaryOffset(edge["offset_mm"], label="hand-placed boundary, offset"),
+                 PointNoise(edge["scatter_mm"], direction="normal", label="hand-placed boundary, points")]
+    else:
+        comps = [BoundaryOffset(edge["offset_mm"], label="edge offset (threshold, light)"),
+                 PointNoise(edge["scatter_mm"], correlation_length=edge["correlation_mm"], direction="normal",
+                            label="edge scatter")]
     comps += list(plane.components)
     if plane.record["method"] in ("two points", "ruler"):
         allowance, note = _perspective_allowance(plane, trace, photo, max_tilt,
@@ -197,16 +242,41 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         comps.append(ScaleError(np.sqrt(2.0) * profile.rms_px / extent, label="lens profile residual"))
         plane.record["lens"] = {"profile": profile.name, "rms_px": profile.rms_px,
                                 "max_correction_px": profile.max_shift_px()}
-    warnings += _cross_check(trace)
+    if seg is not None:
+        warnings += _cross_check(trace)
     if plane.record["method"] != "dpi":
         seen = _side_faces(plane, trace, photo, profile)
         if seen is not None:
             plane.record["side_faces"] = seen
             warnings.append(_side_face_warning(seen))
+    if seg is None:
+        check = TraceCheck(confidence=1.0, needs_review=False, reasons=(),
+                           notes=("the boundary was placed by hand (a sidecar's [trace]); a hand-placement allowance "
+                                  f"of {_HAND_PX:g} px is in its uncertainty",))
+        hint_record = {**hints.record(), "boundary": "hand-edited"}
+    else:
+        check = check_trace(seg, trace)
+        hint_record = hints.record()
+        if under_bark:
+            hint_record["under_bark"] = True
+    trace_record = check.record(hint_record, accepted=accept_trace)
+    if bark is not None:
+        trace_record["bark"] = bark.record(under_bark=under_bark)
+        if bark.seen and not under_bark:
+            warnings.append(f"bark included: it is seen on about {100 * bark.coverage:.0f} % of the outline "
+                            f"({100 * bark.area_share:.1f} % of the area); round timber is taken under bark: "
+                            "measure again with --under-bark for the wood alone")
+        elif bark.seen:
+            warnings.append(f"traced inside the bark (seen on about {100 * bark.coverage:.0f} % of the outline)")
+        elif under_bark:
+            warnings.append("--under-bark: no bark seen; the whole face was traced")
     p = Path(path)
     source = {"kind": "photo", "path": str(p), "sha256": photo.sha256, "image_px": list(photo.shape[::-1]),
               "scale": plane.record, "edge": {k: float(v) for k, v in edge.items()},
-              "texture_mm": texture_mm}
+              "texture_mm": texture_mm, "trace": trace_record}
+    if check.needs_review and accept_trace:
+        warnings.append("the trace check asked for review and the trace was accepted unchecked: "
+                        + "; ".join(check.reasons))
     model = ErrorModel(tuple(comps))
     try:
         proxy = (coarser_section(trace, plane, _MC_SIMPLIFY_PX), model)
@@ -214,7 +284,19 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         proxy = None                                    # the trace itself serves
     measurement = Measurement(section=trace.section, name=name or p.stem, source=source,
                               error_model=model, warnings=tuple(warnings), mc_proxy=proxy)
-    return PhotoMeasurement(measurement=measurement, photo=photo, plane=plane, segmentation=seg, trace=trace)
+    pm = PhotoMeasurement(measurement=measurement, photo=photo, plane=plane, segmentation=seg, trace=trace,
+                          check=check)
+    if check.needs_review and not accept_trace:
+        raise TraceNeedsReview(_review_message(p, check), pm)
+    return pm
+
+
+def _review_message(path: Path, check: TraceCheck) -> str:
+    """What to do when the trace check asks for review (one or two lines)."""
+    return (f"{path.name}: the trace needs review (confidence {check.confidence:.2f}): " + "; ".join(check.reasons)
+            + ". Look at it with --overlay PNG, then give --seed X,Y on the member, --outside X,Y on the ground or "
+            "--box X0,Y0,X1,Y1 round it (or set them in the photo's sidecar), or accept it as it is with "
+            "--accept-trace")
 
 
 def _parse_known(text: str) -> tuple[str, float]:

@@ -228,9 +228,10 @@ def find_ruler(gray: np.ndarray, *, keep_out: list[np.ndarray] = ()) -> RulerRea
     refs = np.zeros(small.shape, np.uint8)
     for poly in keep_out:
         cv2.fillPoly(refs, [np.round(np.asarray(poly) * f).astype(np.int32)], 1)
-    from .segment import _otsu
+    from .lookalike import otsu
 
-    t = _otsu(small[refs == 0])
+    vals = small[refs == 0]
+    t = otsu(vals, float(vals.min()), float(vals.max()))
     candidates = []
     h, w = small.shape
     for cls in (small > t, small <= t):

@@ -1,456 +1,906 @@
-"""Which pixels are the member: a mask of its cut face, holes kept, references left out.
+"""Which pixels are the member: candidates found by region models, scored, and the best one cut
+finely; hints and scale references obeyed.
 
-The image is smoothed, split into two classes by Otsu's threshold, and the member is the
-connected region of one class that holds the seed point, or, unattended, the largest region that
-stands out from the ground round it (by several times that ground's spread) and touches neither
-the image border nor a scale reference (the target's sheet, a ruler, a checkerboard's squares).
-Candidates come from Otsu's level and from the two levels of a three-class split (a thin member
-on a mottled ground merges, at Otsu's level, with the darker or lighter patches of the ground that
-this level splits). Texture
-narrower than a set size (growth rings, checks, saw marks, rust speckle) is closed over; openings
-larger than that (a tube's bore, bolt holes) stay holes whatever their shade.
+The photo is reduced to a working copy of about 60,000 pixels and described by its colour and
+texture (:mod:`tracer.photo.regions`). Candidates for the member come from two kinds of cut:
 
-References
-----------
-.. [1] N. Otsu, "A threshold selection method from gray-level histograms," *IEEE Trans. Syst.,
-       Man, Cybern.*, vol. 9, no. 1, pp. 62-66, 1979. doi: 10.1109/TSMC.1979.4310076.
+- the ground as the image border shows it: a cut between a model of the border strip and a
+  model of everything else, re-estimated twice (a member in the middle of its ground);
+- each large region of one look that does not reach the border (a colour class of the palette),
+  grown by a cut between its own model and that of everything round it (a bright tube wall on
+  a dark face, a member beside larger things).
+
+Each candidate is scored by stated criteria, each 0 to 1 (:data:`SCORE_WEIGHTS`): its size, its
+solidity (area over its convex hull's), the share of its boundary on a strong colour edge, how
+distinct its looks are from those of a ring of ground round it, and how near the centre of
+view it lies. A candidate inside another's outline (the bore of a tube, the heartwood of a log)
+is part of it. A candidate that reaches the image border is cut off and never taken. Where the
+best is weak, or a second scores close to it, nothing is guessed: the message lists where the
+candidates are so that a person can pick one with ``--seed``.
+
+Hints (:mod:`tracer.photo.hints`) replace the search: points on the member seed the member's
+model and are held to it, points on the ground and everything outside a box are held to the
+ground. Scale references (a target and its sheet, rulers) are held to the ground and left out of
+every model.
+
+The chosen candidate is then cut again at up to four times the working resolution, in a band
+round its boundary, with models of the member and of the ground next to it; holes smaller than
+the texture size are filled, larger ones (a tube's bore, bolt holes) stay holes.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import math
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from ..errors import InputError, MeasurementError
-from .tone import to_light
+from ..errors import MeasurementError
+from .hints import Hints
+from .lookalike import reference_kind
+from .regions import CHROMA_WEIGHT as _CHROMA
+from .regions import Appearance, appearance, first_guess, grow_region, min_cut, region_costs
 
-__all__ = ["Segmentation", "segment_member"]
+__all__ = ["Candidate", "Segmentation", "segment_member", "local_costs", "fill_holes", "SCORE_WEIGHTS", "WEAK_SCORE",
+           "CLOSE_SCORE"]
 
-# Pixels of the reduced copy the mask is found on (it only has to find the edge's band: the
-# edge itself is traced at full resolution).
-_WORK_PIXELS = 600_000
-# Long side of the copy the uneven light is estimated on [px] (light varies slowly).
-_LIGHT_PX = 128.0
-# A candidate region stands out when its level differs from the ground round it by more than
-# this many times that ground's spread (strongly: twice as many).
-_STANDS_OUT = 3.0
+#: Weights of the candidate criteria in the score (each criterion 0 to 1).
+SCORE_WEIGHTS = {"size": 1.0, "solidity": 0.5, "edge": 1.5, "distinct": 1.5, "centre": 0.5}
+#: A best candidate scoring below this is too weak to be taken unattended.
+WEAK_SCORE = 2.6
+#: A second candidate scoring within this of the best makes the choice too close to take unattended.
+CLOSE_SCORE = 0.35
+# Pixels of the working copy.
+_WORK_PIXELS = 60_000
+# Window (Gaussian σ) of the texture measure on the working copy [px].
+_TEXTURE_SIGMA = 1.0
+# Finest step of the band cut [full-size px per pixel], and its step against the working copy's.
+_FINE_RATIO = 4.0
+# Most pixels of the member's box in the band cut.
+_FINE_PIXELS = 250_000
+# A look is the member's at first where its share inside is more than this many times its share
+# in the border strip: 1, and 2 against a mottled ground whose looks vary by chance between the two.
+_EXCESS = (1.0, 2.0)
+# Share of the image a candidate must cover at least.
+_MIN_SHARE = 0.003
+# Width of the border strip the ground model is learned from, as a share of the shorter side.
+_BORDER_SHARE = 0.03
+# At most this many one-look regions are grown into candidates.
+_MAX_GROWN = 6
+# The border's uneven light is divided out where a quadratic explains this share of its variation.
+_SHADING_EXPLAINS = 0.3
+# A hole narrower than this share of the member's equivalent diameter is texture.
+_HOLE_WIDTH_SHARE = 0.04
+# Colour difference within which palette entries are one look class [ΔE*ab].
+_CLASS_DE = 20.0
+# A candidate holds those inside its outline (they are parts of it) only if at least this share of
+# its boundary lies on strong edges.
+_HOLDER_EDGE = 0.4
+# A candidate inside a region that reaches the border is taken only if it is at least this share
+# of that region (a tube's wall in a dark field is; the pith of a log whose face is cut off is not).
+_MIN_SHARE_OF_HOLDER = 0.1
+# A region running off the photo along less than this share of the frame may be a member cut off.
+_CUT_OFF_FRAME = 0.2
+# A candidate that looks this much like the ground at the photo's edges (the share of its looks
+# in common with theirs) is ground seen through or beside something, never the member.
+_GROUND_LIKE = 0.6
+# What a larger version of a region adds is ground if this much of its looks is the ground's round it.
+_GROUND_LIKE_EXTRA = 0.5
+# A candidate must be at least twice this thick somewhere [px of the working copy].
+_MIN_HALF_WIDTH = 1.5
+# A candidate scoring this much, whole, distinct and outlined by strong edges ends the search.
+_CLEAR_SCORE = 4.2
+# A candidate may touch the image frame along this share of its boundary (a face that comes
+# within a pixel of the frame in the working copy) and still be whole.
+_MAX_CONTACT = 0.02
 
 
-@dataclass(frozen=True)
-class Segmentation:
-    """The member's mask and the levels that separate it from its surroundings.
-
-    A large photo is segmented on a reduced copy; the mask and the light are kept at that size
-    and brought to full resolution only where the edge is traced (:meth:`field_in` over a
-    rectangle, :meth:`field_at` at points).
+@dataclass(frozen=True, eq=False)
+class Candidate:
+    """A region that may be the member (in the working copy).
 
     Attributes
     ----------
     mask : ndarray (h, w) bool
-        The member's cut face (holes False), on the working copy.
-    smooth : ndarray float32
-        The smoothed light of the working copy (sRGB levels decoded, see :mod:`tracer.photo.tone`),
-        with the uneven light divided out, that the threshold was applied to.
-    threshold : float
-        The level on `smooth` that gave the member's region (Otsu's, or one of a three-class
-        split).
-    member_is_bright : bool
-    light : ndarray (h, w) float32
-        The uneven light divided out (1 where even), on the working copy.
-    shape : (H, W)
-        The full photo's size.
-    step : int
-        Full-size pixels per pixel of the working copy (it is the photo averaged over step x
-        step blocks, the last rows and columns beyond a whole block left out).
+        The region, holes kept.
+    criteria : dict
+        Each scoring criterion, 0 to 1 (:data:`SCORE_WEIGHTS`), and ``contact`` (share of the
+        boundary on the image frame).
+    score : float
+        The weighted sum of the criteria.
+    centre, size : (x, y), (w, h)
+        Where it lies in the full photo and how large its box is [px].
+    inside : int or None
+        The index of the candidate whose outline holds this one (it is then part of it).
+    source : str
+        ``"border"`` (a cut against the border's ground), ``"region"`` (a one-look region grown),
+        or ``"hint"``.
+    reference : str or None
+        ``"checkerboard"`` or ``"ruler"`` where the region is a scale reference lying in view
+        (:mod:`tracer.photo.lookalike`): never the member.
     """
 
-    mask: np.ndarray
-    smooth: np.ndarray
-    threshold: float
-    member_is_bright: bool
-    light: np.ndarray
-    shape: tuple[int, int] = (0, 0)
-    step: int = 1
+    mask: np.ndarray = field(repr=False)
+    criteria: dict
+    score: float
+    centre: tuple[float, float]
+    size: tuple[float, float]
+    inside: int | None = None
+    source: str = "border"
+    reference: str | None = None
 
-    def box(self, pad: int = 0) -> tuple[int, int, int, int]:
-        """Rows r0:r1 and columns c0:c1 of the full photo that hold the member, `pad` px wider."""
+    @property
+    def cut_off(self) -> bool:
+        return self.criteria["contact"] > _MAX_CONTACT
+
+    def describe(self) -> str:
+        return (f"at {self.centre[0]:.0f},{self.centre[1]:.0f} px (about {self.size[0]:.0f} x {self.size[1]:.0f} px, "
+                f"score {self.score:.2f})")
+
+
+@dataclass(frozen=True)
+class Segmentation:
+    """The member's mask and how it was chosen.
+
+    Attributes
+    ----------
+    mask : ndarray (m, n) bool
+        The member (holes False) on a grid of `step` full-size pixels per pixel whose pixel
+        (0, 0) starts at the full photo's pixel `origin` (x, y): the centre of mask pixel (i, j)
+        is the full-size point ((i + 0.5) sx - 0.5 + x0, (j + 0.5) sy - 0.5 + y0).
+    step : (sx, sy)
+        Full-size pixels per pixel of `mask`, across and down.
+    origin : (x0, y0)
+        The full-size pixel where `mask` starts.
+    shape : (H, W)
+        The full photo's size.
+    candidates : tuple of Candidate
+        Everything that was considered, in the working copy (the chosen one first).
+    chosen : Candidate
+    runner_up : Candidate or None
+        The best other candidate not part of the chosen one.
+    working_step : float
+        Full-size pixels per pixel of the working copy.
+    hints : Hints
+    appearance : Appearance
+        Of the working copy.
+    filled_holes : int
+        Holes of the cut smaller than the texture size, filled.
+    """
+
+    mask: np.ndarray = field(repr=False)
+    step: tuple[float, float]
+    origin: tuple[float, float]
+    shape: tuple[int, int]
+    candidates: tuple
+    chosen: Candidate
+    runner_up: Candidate | None
+    working_step: float
+    hints: Hints
+    appearance: Appearance = field(repr=False)
+    filled_holes: int = 0
+
+    def rings_px(self) -> list[np.ndarray]:
+        """The mask's boundary rings in full-size pixels (x, y), outer first then holes, each
+        a closed polyline along the pixel edges' midpoints, smoothed over about a pixel of the
+        mask so that its steps do not show."""
+        return _rings(self.mask, self.step, self.origin)
+
+    def to_full(self, xy: np.ndarray) -> np.ndarray:
+        """Points on `mask`'s grid (column, row) to full-size pixels (x, y)."""
+        return (np.asarray(xy, float) + 0.5) * np.asarray(self.step) - 0.5 + np.asarray(self.origin, float)
+
+    def member_in_full(self) -> np.ndarray:
+        """The mask at full size over the whole photo (nearest pixel), for pixel checks."""
+        import cv2
+
         H, W = self.shape
-        ys, xs = np.nonzero(self.mask.any(axis=1))[0], np.nonzero(self.mask.any(axis=0))[0]
-        k = self.step
-        r0 = int(ys[0]) * k - k - pad
-        r1 = (int(ys[-1]) + 1) * k + k + pad
-        c0 = int(xs[0]) * k - k - pad
-        c1 = (int(xs[-1]) + 1) * k + k + pad
-        return max(0, r0), min(H, r1), max(0, c0), min(W, c1)
-
-    def field_in(self, small: np.ndarray, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
-        """A field of the working copy's size, brought to full resolution over rows r0:r1,
-        columns c0:c1 (bilinear, with cv2.resize's pixel-centre mapping)."""
-        import cv2
-
-        k = self.step
-        if k == 1:
-            return small[r0:r1, c0:c1]
-        # Enlarge the working copy's pixels around the box by k (cv2.resize keeps the pixel
-        # centres where field_at puts them), a pixel of margin so that no edge is clamped.
-        h, w = small.shape[:2]
-        s0, s1 = max(0, r0 // k - 1), min(h, (r1 - 1) // k + 2)
-        t0, t1 = max(0, c0 // k - 1), min(w, (c1 - 1) // k + 2)
-        big = cv2.resize(small[s0:s1, t0:t1].astype(np.float32, copy=False), ((t1 - t0) * k, (s1 - s0) * k),
-                         interpolation=cv2.INTER_LINEAR)
-        out = big[r0 - s0 * k:r1 - s0 * k, c0 - t0 * k:c1 - t0 * k]
-        if out.shape[:2] != (r1 - r0, c1 - c0):        # past the copy's last whole block: as field_at
-            mx = ((np.arange(c0, c1, dtype=np.float32) + 0.5) / k - 0.5)[None, :]
-            my = ((np.arange(r0, r1, dtype=np.float32) + 0.5) / k - 0.5)[:, None]
-            out = self._remap(small, np.repeat(mx, r1 - r0, axis=0), np.repeat(my, c1 - c0, axis=1))
-        return out
-
-    def field_at(self, small: np.ndarray, xy: np.ndarray) -> np.ndarray:
-        """A field of the working copy's size, sampled (bilinear) at full-resolution points (N, 2)
-        (column, row)."""
-        k = np.float32(1.0 / self.step)
-        p = np.asarray(xy, np.float32).reshape(-1, 2)
-        n = len(p)
-        cols = min(max(n, 1), 4096)                    # cv2.remap takes maps under 32767 a side
-        q = np.zeros((-(-n // cols) * cols, 2), np.float32)
-        q[:n] = p
-        mx = ((q[:, 0] + 0.5) * k - 0.5).reshape(-1, cols)
-        my = ((q[:, 1] + 0.5) * k - 0.5).reshape(-1, cols)
-        return self._remap(small, mx, my).ravel()[:n]
-
-    @staticmethod
-    def _remap(small: np.ndarray, mx: np.ndarray, my: np.ndarray) -> np.ndarray:
-        import cv2
-
-        return cv2.remap(small.astype(np.float32, copy=False), np.ascontiguousarray(mx, np.float32),
-                         np.ascontiguousarray(my, np.float32), cv2.INTER_LINEAR, borderMode=cv2.BORDER_REPLICATE)
+        xs = (np.arange(W, dtype=np.float32) + 0.5 - self.origin[0]) / self.step[0] - 0.5
+        ys = (np.arange(H, dtype=np.float32) + 0.5 - self.origin[1]) / self.step[1] - 0.5
+        mx = np.broadcast_to(xs[None, :], (H, W))
+        my = np.broadcast_to(ys[:, None], (H, W))
+        return cv2.remap(self.mask.astype(np.uint8), np.ascontiguousarray(mx), np.ascontiguousarray(my),
+                         cv2.INTER_NEAREST, borderMode=cv2.BORDER_CONSTANT, borderValue=0) > 0
 
 
-def segment_member(gray: np.ndarray, *, texture_px: float, seed: tuple[float, float] | None = None,
-                   keep_out: list[np.ndarray] = (), alpha: np.ndarray | None = None,
-                   _given_seed: tuple[float, float] | None = None, _in_light: bool = False) -> Segmentation:
-    """Find the member in `gray` (H, W floats 0..1).
+def segment_member(photo, *, texture_px: float, hints: Hints = Hints(), keep_out: list[np.ndarray] = (),
+                   ) -> Segmentation:
+    """Find the member in `photo` (:class:`~tracer.photo.load.Photo`).
 
     Parameters
     ----------
-    gray : ndarray
-        Grey levels as stored (sRGB), uint8 (0..255) or float 0..1; the mask is found on the
-        light they stand for (:mod:`tracer.photo.tone`).
+    photo : Photo
     texture_px : float
-        Cracks and specks narrower than this [px] are texture, not edges or holes.
-    seed : (x, y), optional
-        A pixel on the member (column, row), where several objects are in view.
+        Cracks, checks and specks narrower than this [px] are texture, not edges or holes.
+    hints : Hints
+        Points on the member, points on the ground, a box round it (checked against the image).
     keep_out : list of (N, 2) arrays
-        Polygons [px] of the scale references.
-    alpha : ndarray, optional
-        Opaque pixels of a transparent image (the rest is background).
+        Polygons [px] of the scale references: never the member.
 
     Raises
     ------
     InputError
-        The seed lies outside the image.
+        A hint outside the image or contradicting another.
     MeasurementError
-        Nothing segmented, the seed on background, or the member cut off by the image border.
+        Nothing found; the member cut off by the border; a seed on the ground; or, unattended,
+        no candidate clearly better than the rest (the message lists them).
     """
     import cv2
 
-    given = _given_seed or seed                    # as the user wrote it, for the messages
-    H0, W0 = gray.shape
-    # Work on a reduced copy of a large photo: the mask only has to find the edge's band; the
-    # edge itself is traced at full resolution.
-    if seed is not None and not _inside(seed, W0, H0):
-        raise InputError(f"--seed {seed[0]:g},{seed[1]:g} lies outside the {W0} x {H0} image")
-    f = min(1.0, (_WORK_PIXELS / (H0 * W0)) ** 0.5)
-    f = max(f, min(1.0, 3.0 / texture_px))          # texture stays at least 3 px wide
-    k = int(1.0 / f)                                # whole blocks: the fast exact average
-    if k > 1:
-        src = gray if gray.dtype == np.uint8 else gray.astype(np.float32)
-        h, w = H0 // k, W0 // k
-        small = to_light(cv2.resize(src[:h * k, :w * k], (w, h), interpolation=cv2.INTER_AREA))
+    H, W = photo.shape
+    hints.check(W, H)
+    step = max(1.0, math.sqrt(H * W / _WORK_PIXELS))
+    w, h = max(16, round(W / step)), max(16, round(H / step))
+    sx, sy = W / w, H / h
+    small = cv2.resize(photo.color, (w, h), interpolation=cv2.INTER_AREA)
+    from .tone import LIGHT_OF_8BIT
 
-        def to_small(p):
-            return (np.asarray(p, float) + 0.5) / k - 0.5
-
-        seg = segment_member(small, texture_px=texture_px / k,
-                             seed=None if seed is None else tuple(np.clip(to_small(seed), 0, [w - 1, h - 1])),
-                             _given_seed=seed, _in_light=True,
-                             keep_out=[to_small(p) for p in keep_out],
-                             alpha=None if alpha is None else cv2.resize(alpha[:h * k, :w * k].astype(np.uint8), (w, h),
-                                                                          interpolation=cv2.INTER_NEAREST).astype(bool))
-        return Segmentation(mask=seg.mask, smooth=seg.smooth, threshold=seg.threshold,
-                            member_is_bright=seg.member_is_bright, light=seg.light, shape=(H0, W0), step=k)
-    h, w = H0, W0
-    sigma = max(1.0, 0.25 * texture_px)
-    smooth = cv2.GaussianBlur(gray.astype(np.float32) if _in_light else to_light(gray), (0, 0), sigma)
+    light = LIGHT_OF_8BIT[small]
+    shading = _shading(light, _border_strip(h, w))
+    light = light / shading[..., None]
     refs = np.zeros((h, w), np.uint8)
     for poly in keep_out:
-        cv2.fillPoly(refs, [np.round(poly).astype(np.int32)], 1)
-    usable = refs == 0
-    if alpha is not None:
-        usable &= alpha
-    light = _light(smooth, usable)
-    smooth = smooth / light
-    sample = smooth[::2, ::2][usable[::2, ::2]]      # every other pixel: the same histogram
-    t = _otsu(sample)
-    r = max(1, int(round(texture_px / 2)))
-    disk = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * r + 1, 2 * r + 1))
-    if seed is not None:
-        bright = smooth > t
-        sx, sy = seed                                  # inside the image: checked above
-        cls = bool(bright[int(sy), int(sx)])
-        m = _closed_and_opened((bright if cls else ~bright) & usable, disk, usable)
-        n, labels, stats, _ = cv2.connectedComponentsWithStats(m, connectivity=8)
-        lab = labels[int(sy), int(sx)]
-        x, y, bw, bh, _ = stats[lab] if lab else (0, 0, w, h, 0)
-        if lab == 0 or x == 0 or y == 0 or x + bw == w or y + bh == h:
-            raise MeasurementError(f"--seed {given[0]:g},{given[1]:g} is on the background, not on a member "
-                                   "(its region reaches the image border); pick a point well inside the "
-                                   "cut face, and photograph the whole face")
-        best = (stats[lab][4], labels == lab, cls, t)
+        q = (np.asarray(poly, float) + 0.5) / (sx, sy) - 0.5
+        cv2.fillPoly(refs, [np.round(q * 16).astype(np.int32)], 1, lineType=cv2.LINE_8, shift=4)
+    # A pixel of margin round each reference: its anti-aliased rim is no member either.
+    refs = cv2.dilate(refs, np.ones((3, 3), np.uint8)).astype(bool)
+    if photo.alpha is not None:
+        refs |= cv2.resize(photo.alpha.astype(np.uint8), (w, h), interpolation=cv2.INTER_NEAREST) == 0
+    # Texture is the roughness at the working copy's own scale (its pixels average the photo's
+    # finest grain), over a window small enough that an edge's step spills little into it (a
+    # wide window makes a band of "edge" looks along every outline, taken for the member).
+    app = appearance(light, texture_px=_TEXTURE_SIGMA, usable=~refs)
+    scale = (sx, sy)
+    strip = _border_strip(h, w) & ~refs
+    looks = np.bincount(app.codes[strip], minlength=len(app.palette)) / max(int(strip.sum()), 1)
+    ctx = _Context(app=app, refs=refs, scale=scale, shape=(H, W), texture_px=texture_px, shading=shading,
+                   gray=photo.levels, ground_looks=looks)
+    if hints.seeds:
+        cands = _seeded(ctx, hints)
+        chosen, runner = cands[0], None
     else:
-        found, cut_off = _regions(smooth, usable, t, disk)
-        # The ground's own spread over the photo (the class of the border at Otsu's level): a
-        # mottled ground's patches differ from their surroundings by about that much.
-        ground_bright = bool(np.median(np.concatenate([smooth[0], smooth[-1], smooth[:, 0], smooth[:, -1]])) > t)
-        ground = sample[(sample > t) == ground_bright]
-        floor = 1.4826 * float(np.median(np.abs(ground - np.median(ground)))) if len(ground) else 0.0
-        at_otsu = [(f, _stand_out_ratio(smooth, usable, f[1], r, floor)) for f in found]
-        # A thin member on a mottled ground can merge, at Otsu's level, with the darker (or
-        # lighter) patches of the ground that this level splits: the levels of a three-class
-        # split give candidates too. The largest region that stands out strongly at Otsu's level
-        # is taken; else the largest at the other levels; else the largest that stands out at all.
-        at_three = []
-        if not any(q >= 2 * _STANDS_OUT for _, q in at_otsu):
-            for t3 in _otsu3(sample):
-                at_three += [(f, _stand_out_ratio(smooth, usable, f[1], r, floor)) for f in _regions(smooth, usable, t3, disk)[0]]
-        tiers = ([f for f, q in at_otsu if q >= 2 * _STANDS_OUT], [f for f, q in at_three if q >= 2 * _STANDS_OUT],
-                 [f for f, q in at_otsu + at_three if q > _STANDS_OUT], found)
-        pool = next((t for t in tiers if t), [])
-        best = max(pool, key=lambda f: f[0]) if pool else None
-        if best is None and cut_off:
-            raise MeasurementError("the member is cut off by the image border; photograph the whole cut face "
-                                   "with some ground around it")
-        if best is None:
-            raise MeasurementError("nothing segmented: no region stands out from its surroundings apart from the "
-                                   "references; give --seed X,Y on the member, or photograph it against a "
-                                   "contrasting ground")
-    _, region, cls, t = best
-    ys, xs = np.nonzero(region)
-    if xs.min() == 0 or ys.min() == 0 or xs.max() == w - 1 or ys.max() == h - 1:
-        raise MeasurementError("the member is cut off by the image border; photograph the whole cut face "
-                               "with some ground around it")
-    mask = _fill_small_holes(region, min_area=(2 * texture_px) ** 2)
-    return Segmentation(mask=mask, smooth=smooth, threshold=float(t), member_is_bright=cls, light=light,
-                        shape=(H0, W0))
+        cands = _candidates(ctx, hints)
+        chosen, runner = _choose(ctx, cands, hints)
+    mask, fine_step, origin, filled = _refine(photo, ctx, chosen.mask, hints)
+    ordered = (chosen,) + tuple(c for c in cands if c is not chosen)
+    return Segmentation(mask=mask, step=fine_step, origin=origin, shape=(H, W), candidates=ordered, chosen=chosen,
+                        runner_up=runner, working_step=float(math.sqrt(sx * sy)), hints=hints, appearance=app,
+                        filled_holes=filled)
 
 
-def _closed_and_opened(m: np.ndarray, disk: np.ndarray, usable: np.ndarray) -> np.ndarray:
-    """Texture narrower than the disk closed over, then specks opened away (uint8 mask)."""
+# ---------------------------------------------------------------------------------------------
+@dataclass
+class _Context:
+    app: Appearance
+    refs: np.ndarray
+    scale: tuple[float, float]
+    shape: tuple[int, int]
+    texture_px: float
+    shading: np.ndarray
+    gray: np.ndarray | None = None
+    ground_looks: np.ndarray | None = None
+
+    def to_small(self, xy) -> np.ndarray:
+        return (np.asarray(xy, float) + 0.5) / self.scale - 0.5
+
+    def to_full(self, xy) -> np.ndarray:
+        return (np.asarray(xy, float) + 0.5) * self.scale - 0.5
+
+    def disc(self, points, radius: float) -> np.ndarray:
+        import cv2
+
+        h, w = self.app.shape
+        m = np.zeros((h, w), np.uint8)
+        for x, y in self.to_small(np.reshape(points, (-1, 2))):
+            cv2.circle(m, (int(round(x)), int(round(y))), max(0, int(round(radius))), 1, -1)
+        return m.astype(bool)
+
+    def outside_box(self, box) -> np.ndarray:
+        h, w = self.app.shape
+        m = np.ones((h, w), bool)
+        if box is None:
+            return np.zeros((h, w), bool)
+        (x0, y0), (x1, y1) = self.to_small([box[:2], box[2:]])
+        m[max(0, int(math.floor(y0))):int(math.ceil(y1)) + 1, max(0, int(math.floor(x0))):int(math.ceil(x1)) + 1] = False
+        return m
+
+
+def _seeded(ctx: _Context, hints: Hints) -> list[Candidate]:
+    """The member grown from the points on it."""
     import cv2
 
-    m = cv2.morphologyEx(m.astype(np.uint8), cv2.MORPH_CLOSE, disk)
-    m = cv2.morphologyEx(m, cv2.MORPH_OPEN, disk)
-    return m & usable.astype(np.uint8)
+    app = ctx.app
+    h, w = app.shape
+    hard_member = ctx.disc(hints.seeds, 1.0) & ~ctx.refs
+    hard_ground = ctx.refs | ctx.disc(hints.outside, 1.0) | ctx.outside_box(hints.box) | _frame(h, w)
+    for (x, y), disc in ((p, ctx.disc([p], 1.0)) for p in hints.seeds):
+        if (disc & ctx.refs).any():
+            raise MeasurementError(f"--seed {x:g},{y:g} is on the scale reference (the target's sheet or a ruler), "
+                                   "not on the member; pick a point well inside the cut face")
+    # The member's first model: round the seeds, a few per cent of the image; the ground's: the
+    # border strip (or the box's rim) and round the outside points.
+    r = 0.04 * min(h, w)
+    member0 = ctx.disc(hints.seeds, r) & ~hard_ground
+    ground0 = _border_strip(h, w) if hints.box is None else _rim(ctx.outside_box(hints.box))
+    ground0 = (ground0 | ctx.disc(hints.outside, r)) & ~member0 & ~ctx.refs
+    cut = grow_region(app, member0, ground0, hard_member=hard_member, hard_ground=hard_ground, rounds=3)
+    n, labels = cv2.connectedComponents(cut.astype(np.uint8), connectivity=4)
+    seeds_small = np.round(ctx.to_small(hints.seeds)).astype(int)
+    seeds_small = np.clip(seeds_small, 0, [w - 1, h - 1])
+    ids = labels[seeds_small[:, 1], seeds_small[:, 0]]
+    region = np.isin(labels, ids[ids > 0])
+    base = ctx.disc(hints.seeds, 1.0)
+    if region.sum() <= 1.5 * base.sum() or region.sum() < 0.5 * _MIN_SHARE * h * w:
+        x, y = hints.seeds[0]
+        raise MeasurementError(f"--seed {x:g},{y:g} is on the background as the colours and textures round it "
+                               "read: nothing grows from it that differs from its surroundings; pick a point well "
+                               "inside the cut face, or add --outside X,Y on the ground")
+    if len(set(ids.tolist())) > 1:
+        pts = " and ".join(f"{x:g},{y:g}" for x, y in hints.seeds)
+        raise MeasurementError(f"--seed {pts} fall on separate regions; give points on one member, or a --box "
+                               "round it")
+    region = fill_holes(region, (2 * ctx.texture_px / ctx.scale[0]) ** 2)
+    crit = _criteria(ctx, region)
+    cand = _candidate(ctx, region, crit, "hint")
+    if cand.cut_off:
+        x, y = hints.seeds[0]
+        raise MeasurementError(f"the member at --seed {x:g},{y:g} is cut off by the image border; photograph the "
+                               "whole cut face with some ground around it")
+    return [cand]
 
 
-def _regions(smooth: np.ndarray, usable: np.ndarray, t: float, disk: np.ndarray) -> tuple[list, bool]:
-    """Candidate members at level `t`: regions of either class, large enough, touching neither
-    the border nor a reference, not a ruler or a checkerboard, nor lying in another one's
-    opening (a tube's bore); and whether a region of the member's class was cut off."""
+def _candidates(ctx: _Context, hints: Hints) -> list[Candidate]:
+    """Candidates from the border's ground and from one-look regions, scored (unattended, or
+    with a box and points on the ground)."""
     import cv2
 
-    h, w = smooth.shape
-    bright = smooth > t
-    border = np.concatenate([bright[0], bright[-1], bright[:, 0], bright[:, -1]])
-    ground_is_bright = bool(border.mean() > 0.5)
-    found, cut_off = [], False                      # (area, region, class, level)
-    for cls in (True, False):
-        same = bright if cls else ~bright
-        n, labels, stats, _ = cv2.connectedComponentsWithStats(_closed_and_opened(same & usable, disk, usable),
-                                                               connectivity=8)
-        for k in range(1, n):
-            x, y, bw, bh, area = stats[k]
-            touches = x == 0 or y == 0 or x + bw == w or y + bh == h
-            if (area >= 0.002 * h * w and not touches and not _looks_like_ruler(labels == k)
-                    and not _looks_like_board(labels[y:y + bh, x:x + bw] == k, same[y:y + bh, x:x + bw])):
-                found.append((area, labels == k, cls, t))
-            elif touches and cls != ground_is_bright and area >= 0.002 * h * w:
-                cut_off = True
-    filled = [_fill_small_holes(f[1], min_area=np.inf) for f in found]
-    found = [f for i, f in enumerate(found) if not any(j != i and filled[j][f[1]].all() for j in range(len(found)))]
-    return found, cut_off
+    app = ctx.app
+    h, w = app.shape
+    # The image frame is held to the ground (as the outside of a box is): where the looks are
+    # alike, the cut then keeps the ground with the frame instead of taking it at random.
+    hard_ground = ctx.refs | ctx.disc(hints.outside, 1.0) | ctx.outside_box(hints.box) | _frame(h, w)
+    strip = _border_strip(h, w) if hints.box is None else _rim(ctx.outside_box(hints.box))
+    r = 0.04 * min(h, w)
+    ground0 = (strip | ctx.disc(hints.outside, r)) & ~ctx.refs
+    inside = ~ground0 & ~hard_ground
+    # The member's first model: what is inside and not explained by the ground's looks, a look
+    # counting where its share inside is above its share in the strip (or, against a mottled
+    # ground whose looks vary by chance between the two, well above it): one cut for each,
+    # the second only where the first found nothing clear.
+    min_area = _MIN_SHARE * h * w
+    fill = (2 * ctx.texture_px / ctx.scale[0]) ** 2
+    cands: list[Candidate] = []
+
+    def add(region: np.ndarray, source: str) -> None:
+        # A sliver (nowhere three pixels of the working copy thick) is no member's face.
+        if cv2.distanceTransform(np.pad(region, 1).astype(np.uint8), cv2.DIST_L2, 3).max() >= _MIN_HALF_WIDTH:
+            cands.append(_candidate(ctx, region, _criteria(ctx, region), source))
+
+    for alpha in _EXCESS:
+        member0 = first_guess(app, inside, ground0, excess=alpha)
+        cut = grow_region(app, member0, ground0, hard_ground=hard_ground, rounds=3)
+        for reg in _components(cut, min_area):
+            add(fill_holes(reg, fill), "border")
+    # Regions already well found (whole, on strong edges) need no one-look seed inside them.
+    found = [c.mask for c in cands if not c.cut_off and c.criteria["edge"] >= 0.5]
+    grow_seeds = not any(_clear(c) for c in cands)
+    # One-look regions: palette entries of like colour grouped, each group's connected parts.
+    classes = _look_classes(app)
+    seeds = []
+    for c in np.unique(classes):
+        for reg in _components((classes == c) & ~hard_ground, min_area):
+            contact = _contact(reg)
+            if contact > _MAX_CONTACT:
+                # A look that runs off the photo along a short stretch of its frame may be a
+                # member cut off; along much of it, it is ground.
+                if _frame_share(reg) < _CUT_OFF_FRAME:
+                    add(reg, "region")
+                continue
+            if grow_seeds and contact == 0 and not any((reg & m).sum() > 0.7 * reg.sum() for m in found):
+                seeds.append(reg)
+    seeds.sort(key=lambda m: -int(m.sum()))
+    kernel = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (5, 5))
+    for seed in seeds[:_MAX_GROWN]:
+        around = ~cv2.dilate(seed.astype(np.uint8), kernel).astype(bool) & ~ctx.refs
+        grown = grow_region(app, seed, around, hard_ground=hard_ground, rounds=2)
+        n, labels, stats, _ = cv2.connectedComponentsWithStats(grown.astype(np.uint8), connectivity=4)
+        ids = np.unique(labels[seed & grown])
+        ids = ids[ids > 0]
+        if not len(ids):
+            continue
+        best = ids[np.argmax(stats[ids, cv2.CC_STAT_AREA])]
+        if stats[best, cv2.CC_STAT_AREA] >= min_area:
+            add(fill_holes(labels == best, fill), "region")
+    return _nest(_one_version_each(ctx, cands))
 
 
-def _stand_out_ratio(smooth: np.ndarray, usable: np.ndarray, region: np.ndarray, r: int, floor: float) -> float:
-    """How many times the ground's spread the region's level differs from the ground round it
-    (robust: medians and 1.4826 MAD), the spread being at least `floor` (the ground's over the
-    whole photo); 0 where no ground is round it. The ground is read in a ring a little away
-    from the region, where a threshold has not cut its distribution short: a patch of a
-    mottled ground then differs by about one spread, a member by many."""
+def _one_version_each(ctx: _Context, cands: list[Candidate]) -> list[Candidate]:
+    """Of the versions of one region (outlines that nearly coincide), keep one: the smaller where
+    what the larger adds looks like the ground round it (a tube's bore partly taken in), else the
+    larger (a heartwood left out as if it were an opening); alike ones by score."""
+    kept: list[Candidate] = []
+    solid = {id(c): fill_holes(c.mask, np.inf) for c in cands}
+    for c in sorted(cands, key=lambda c: -c.score):
+        twin = next((k for k in kept if _iou(solid[id(c)], solid[id(k)]) > 0.7), None)
+        if twin is None:
+            kept.append(c)
+            continue
+        big, small = (c, twin) if c.mask.sum() > twin.mask.sum() else (twin, c)
+        extra = big.mask & ~small.mask
+        if extra.sum() < 0.02 * small.mask.sum():
+            continue                                   # alike: the better scored stays
+        keep = small if _looks_like_ring(ctx, extra, small.mask, big.mask) >= _GROUND_LIKE_EXTRA else big
+        kept[next(i for i, k in enumerate(kept) if k is twin)] = keep
+    return kept
+
+
+def _looks_like_ring(ctx: _Context, part: np.ndarray, region: np.ndarray, outer: np.ndarray) -> float:
+    """The share of `part`'s pixels whose looks are commoner in the ground just round `outer`
+    (a ring 3 to 10 px out) than in `region`."""
     import cv2
 
-    ys, xs = np.nonzero(region.any(axis=1))[0], np.nonzero(region.any(axis=0))[0]
-    pad = 6 * r + 4
-    r0, r1 = max(0, ys[0] - pad), ys[-1] + 1 + pad
-    c0, c1 = max(0, xs[0] - pad), xs[-1] + 1 + pad
-    reg = region[r0:r1, c0:c1]
-    solid = _fill_small_holes(reg, min_area=np.inf).astype(np.uint8)
-    disk = lambda n: cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * n + 1, 2 * n + 1))
-    ring = (cv2.dilate(solid, disk(6 * r + 2)) > cv2.dilate(solid, disk(2 * r + 1))) & usable[r0:r1, c0:c1]
-    if ring.sum() < 20:
+    m8 = outer.astype(np.uint8)
+    k3 = np.ones((3, 3), np.uint8)
+    ring = (cv2.dilate(m8, k3, iterations=10) > 0) & ~(cv2.dilate(m8, k3, iterations=3) > 0) & ~ctx.refs
+    if not ring.any() or not part.any():
         return 0.0
-    img = smooth[r0:r1, c0:c1]
-    inside, around = np.median(img[reg]), img[ring]
-    spread = 1.4826 * float(np.median(np.abs(around - np.median(around))))
-    return abs(float(inside) - float(np.median(around))) / max(spread, floor, 1e-3)
+    K = len(ctx.app.palette)
+    hm = np.bincount(ctx.app.codes[region], minlength=K) / max(float(region.sum()), 1.0)
+    hr = np.bincount(ctx.app.codes[ring], minlength=K) / float(ring.sum())
+    return float((hr > hm)[ctx.app.codes[part]].mean())
 
 
-def _otsu3(values: np.ndarray) -> tuple[float, float]:
-    """The two levels of a three-class Otsu split of values in 0..1 (exhaustive over the
-    histogram's bins; between-class variance, as [1] for two classes)."""
-    bins = 128
-    idx = np.clip((np.asarray(values, np.float32) * np.float32(bins)).astype(np.intp), 0, bins - 1)
-    p = np.bincount(idx, minlength=bins).astype(np.float64)
-    p /= max(p.sum(), 1.0)
-    c = (np.arange(bins) + 0.5) / bins
-    w0, m0 = np.cumsum(p), np.cumsum(p * c)                 # weight and first moment below each bin
-    i, j = np.triu_indices(bins - 1, k=1)                   # split after bin i and after bin j
-    wa, ma = w0[i], m0[i]
-    wb, mb = w0[j] - w0[i], m0[j] - m0[i]
-    wc, mc = 1.0 - w0[j], m0[-1] - m0[j]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        between = ma ** 2 / wa + mb ** 2 / wb + mc ** 2 / wc
-    k = int(np.nanargmax(np.where((wa > 0) & (wb > 0) & (wc > 0), between, np.nan)))
-    return float((i[k] + 1) / bins), float((j[k] + 1) / bins)
+def _ground_like(ctx: _Context, region: np.ndarray) -> float:
+    """The share of the region's looks in common with those of the ground at the photo's edges."""
+    if ctx.ground_looks is None or not region.any():
+        return 0.0
+    hr = np.bincount(ctx.app.codes[region], minlength=len(ctx.app.palette)) / float(region.sum())
+    return float(np.minimum(hr, ctx.ground_looks).sum())
 
 
-def _light(img: np.ndarray, usable: np.ndarray) -> np.ndarray:
-    """The uneven light, estimated from the ground (the class that holds the border).
+def _clear(c: Candidate) -> bool:
+    """A candidate so plainly the member that no other search is needed (the references are
+    still looked for before it is taken)."""
+    k = c.criteria
+    return (not c.cut_off and c.score >= _CLEAR_SCORE and k["edge"] >= 0.8 and k["distinct"] >= 0.9
+            and k["size"] >= 0.3)
 
-    The ground's brightness is interpolated over the whole image by normalised convolution
-    (the member and references left out) on a reduced copy; light multiplies member and ground
-    alike, so dividing by it evens both. Two rounds, each with a better split.
-    """
+
+def _choose(ctx: _Context, cands: list[Candidate], hints: Hints) -> tuple[Candidate, Candidate | None]:
+    """The best whole candidate not inside another, and the best other one; refuse where it is
+    weak or the other close."""
+    whole = [c for c in cands if not c.cut_off and c.inside is None and c.criteria["ground_like"] < _GROUND_LIKE]
+    if not whole:
+        if any(c.cut_off for c in cands):
+            raise MeasurementError("the member is cut off by the image border; photograph the whole cut face with "
+                                   "some ground around it")
+        raise MeasurementError("nothing segmented: no region stands out from its surroundings apart from the "
+                               "references; give --seed X,Y on the member, or photograph it against a contrasting "
+                               "ground")
+    whole.sort(key=lambda c: -c.score)
+    kinds: dict[int, str | None] = {}
+
+    def is_reference(c: Candidate) -> bool:
+        if id(c) not in kinds:
+            kinds[id(c)] = _reference(ctx, c.mask)
+        return kinds[id(c)] is not None
+
+    # Scale references lying in view are never the member: looked for from the best down.
+    while whole and is_reference(whole[0]):
+        whole.pop(0)
+    if not whole:
+        raise MeasurementError("nothing segmented: only a checkerboard or a ruler stands out from its surroundings; "
+                               "give --seed X,Y on the member")
+    best = whole[0]
+    # A region running off the photo, outlined by strong edges, that scores better, or of which
+    # the best is a part: the member is cut off by the border.
+    for c in cands:
+        if (c.cut_off and c.criteria["edge"] >= _HOLDER_EDGE and c.criteria["ground_like"] < _GROUND_LIKE
+                and (c.score > best.score or _part_of(ctx.app, best.mask, c.mask)) and not is_reference(c)):
+            raise MeasurementError(f"the member is cut off by the image border (a region {c.describe()} runs off "
+                                   "the photo); photograph the whole cut face with some ground around it, or give "
+                                   "--seed X,Y on the member if it is another region")
+    # The runner-up is another region, not another version of the same one.
+    # Nor a region wrapped round it (the grapple, the pallet, the ground's darker patches).
+    solid = fill_holes(best.mask, np.inf)
+    others = [c for c in whole[1:] if _iou(fill_holes(c.mask, np.inf), solid) < 0.5
+              and (_hull(c.mask) & best.mask).sum() < 0.5 * best.mask.sum()]
+    runner = next((c for c in others if not is_reference(c)), None)
+    weak = best.score < WEAK_SCORE
+    close = runner is not None and runner.score > best.score - CLOSE_SCORE
+    if weak or close:
+        listed = "; ".join(c.describe() for c in whole[:4])
+        why = "no candidate stands out clearly" if weak else "two candidates score close"
+        raise MeasurementError(f"the member could not be told from its surroundings unattended ({why}): candidates "
+                               f"{listed}; give --seed X,Y on the member (and --outside X,Y on the ground, or "
+                               "--box X0,Y0,X1,Y1 round it)")
+    return best, runner
+
+
+def _refine(photo, ctx: _Context, region: np.ndarray, hints: Hints) -> tuple[np.ndarray, tuple, tuple, int]:
+    """The chosen region cut again at a finer step in a band round its boundary."""
     import cv2
 
-    h, w = img.shape
-    f = min(1.0, _LIGHT_PX / max(h, w))
-    small = cv2.resize(img, (max(2, int(w * f)), max(2, int(h * f))), interpolation=cv2.INTER_AREA)
-    use = cv2.resize(usable.astype(np.uint8), small.shape[::-1], interpolation=cv2.INTER_NEAREST).astype(bool)
-    sigma = max(small.shape) / 8.0
-    flat = small.copy()
-    light = np.ones_like(small)
-    for _ in range(2):
-        t = _otsu(flat[use])
-        cls = flat > t
-        border = np.concatenate([cls[0], cls[-1], cls[:, 0], cls[:, -1]])
-        ground = (cls == (border.mean() > 0.5)) & use
-        if ground.sum() < 0.05 * ground.size:
-            return np.ones_like(img)
-        num = cv2.GaussianBlur(np.where(ground, small, 0).astype(np.float32), (0, 0), sigma)
-        den = cv2.GaussianBlur(ground.astype(np.float32), (0, 0), sigma)
-        light = num / np.maximum(den, 1e-6)
-        light = light / float(np.median(light[ground]))
-        flat = small / np.maximum(light, 1e-3)
-    big = cv2.resize(light.astype(np.float32), (w, h), interpolation=cv2.INTER_LINEAR)
-    return np.maximum(big, 1e-3).astype(np.float32)
+    from .tone import LIGHT_OF_8BIT
+
+    H, W = ctx.shape
+    sx, sy = ctx.scale
+    coarse = math.sqrt(sx * sy)
+    ys, xs = np.nonzero(region)
+    pad = 4
+    x0 = max(0.0, (xs.min() - pad) * sx)
+    y0 = max(0.0, (ys.min() - pad) * sy)
+    x1 = min(float(W), (xs.max() + 1 + pad) * sx)
+    y1 = min(float(H), (ys.max() + 1 + pad) * sy)
+    c0, r0, c1, r1 = int(x0), int(y0), int(math.ceil(x1)), int(math.ceil(y1))
+    fine = max(1.0, coarse / _FINE_RATIO, math.sqrt((c1 - c0) * (r1 - r0) / _FINE_PIXELS))
+    n, m = max(8, round((c1 - c0) / fine)), max(8, round((r1 - r0) / fine))
+    fx, fy = (c1 - c0) / n, (r1 - r0) / m
+    crop = photo.color[r0:r1, c0:c1]
+    small = crop if (n, m) == (c1 - c0, r1 - r0) else cv2.resize(crop, (n, m), interpolation=cv2.INTER_AREA)
+    # The coarse region on the fine grid (pixel centres mapped), and the band either side of
+    # its boundary where the fine cut is free.
+    gx = ((np.arange(n) + 0.5) * fx + c0) / sx - 0.5
+    gy = ((np.arange(m) + 0.5) * fy + r0) / sy - 0.5
+    mx, my = np.meshgrid(gx.astype(np.float32), gy.astype(np.float32))
+    shading = cv2.remap(ctx.shading, mx, my, cv2.INTER_LINEAR, borderMode=cv2.BORDER_REPLICATE)
+    on = cv2.remap(region.astype(np.float32), mx, my, cv2.INTER_LINEAR, borderMode=cv2.BORDER_CONSTANT) > 0.5
+    refs = cv2.remap(ctx.refs.astype(np.uint8), mx, my, cv2.INTER_NEAREST, borderMode=cv2.BORDER_CONSTANT) > 0
+    band = max(2, int(round(2.0 * coarse / fine)))
+    kern = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * band + 1, 2 * band + 1))
+    inner = cv2.erode(on.astype(np.uint8), kern).astype(bool)
+    outer = ~cv2.dilate(on.astype(np.uint8), kern).astype(bool)
+    near = cv2.dilate(on.astype(np.uint8), cv2.getStructuringElement(cv2.MORPH_ELLIPSE,
+                                                                      (6 * band + 1, 6 * band + 1))).astype(bool)
+    ring = near & outer & ~refs
+    app = appearance(LIGHT_OF_8BIT[small] / shading[..., None], looks=False)
+    cm, cg = local_costs(app.lab, inner, ring if ring.any() else outer & ~refs, 3.0 * band)
+    hard_ground = outer | refs
+    if hints.outside:
+        q = np.round(((np.asarray(hints.outside, float) - (c0, r0)) + 0.5) / (fx, fy) - 0.5).astype(int)
+        ok = (q[:, 0] >= 0) & (q[:, 0] < n) & (q[:, 1] >= 0) & (q[:, 1] < m)
+        hard_ground[q[ok, 1], q[ok, 0]] = True
+    hard_member = inner & ~hard_ground
+    if hints.seeds:
+        q = np.round(((np.asarray(hints.seeds, float) - (c0, r0)) + 0.5) / (fx, fy) - 0.5).astype(int)
+        q = np.clip(q, 0, [n - 1, m - 1])
+        hard_member[q[:, 1], q[:, 0]] = True
+    cut = min_cut(app, cm, cg, member=hard_member, ground=hard_ground)
+    # The component of the cut that holds most of the coarse region.
+    k, labels, stats, _ = cv2.connectedComponentsWithStats(cut.astype(np.uint8), connectivity=8)
+    if k < 2:
+        raise MeasurementError("nothing segmented: the member's edge could not be found")
+    votes = np.bincount(labels[inner | on].ravel(), minlength=k)
+    votes[0] = 0
+    member = labels == int(np.argmax(votes))
+    before = int((~member).sum())
+    member = _fill_narrow_holes(member, min_width=2 * ctx.texture_px / fine)
+    filled = before - int((~member).sum())
+    return member, (fx, fy), (float(c0), float(r0)), filled
 
 
-def _inside(seed: tuple[float, float], w: int, h: int) -> bool:
-    return 0 <= seed[0] < w and 0 <= seed[1] < h
+# ---------------------------------------------------------------------------------------------
+def local_costs(lab: np.ndarray, inner: np.ndarray, ring: np.ndarray, reach: float) -> tuple[np.ndarray, np.ndarray]:
+    """Each pixel's cost of being member and ground under local colour models: Gaussians in
+    CIELAB about the member's and the ground's mean colour near it (normalised convolution of
+    `inner` and `ring` over `reach` px, so that shading, heartwood and sapwood, or a ground
+    that changes along the member are followed), with one pooled spread."""
+    import cv2
+
+    def local_mean(sel: np.ndarray) -> np.ndarray:
+        w = cv2.GaussianBlur(sel.astype(np.float32), (0, 0), reach)
+        m = cv2.GaussianBlur(lab * sel[..., None].astype(np.float32), (0, 0), reach) / np.maximum(w, 1e-6)[..., None]
+        whole = np.median(lab[sel], axis=0) if sel.any() else np.zeros(3, np.float32)
+        return np.where((w > 1e-3)[..., None], m, whole).astype(np.float32)
+
+    mu_in = local_mean(inner)
+    mu_out = local_mean(ring)
+    d_in = np.square(lab - mu_in).sum(axis=2)
+    d_out = np.square(lab - mu_out).sum(axis=2)
+    var = 0.5 * (float(np.median(d_in[inner])) if inner.any() else 1.0) + \
+        0.5 * (float(np.median(d_out[ring])) if ring.any() else 1.0)
+    var = max(var, 1.0)
+    return (d_in / (2 * var)).astype(np.float32), (d_out / (2 * var)).astype(np.float32)
 
 
-def _otsu(values: np.ndarray) -> float:
-    """Otsu's threshold of values in 0..1 [1]."""
-    bins = 512
-    idx = (np.asarray(values, np.float32) * np.float32(bins)).astype(np.intp)
-    hist = np.bincount(np.clip(idx, 0, bins - 1), minlength=bins)      # np.histogram's bins, faster
-    p = hist.astype(np.float64) / max(hist.sum(), 1)
-    centres = (np.arange(bins) + 0.5) / bins
-    w0 = np.cumsum(p)
-    mu = np.cumsum(p * centres)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        between = (mu[-1] * w0 - mu) ** 2 / (w0 * (1.0 - w0))
-    return float(centres[int(np.nanargmax(between))])
+def _criteria(ctx: _Context, region: np.ndarray) -> dict:
+    """The scoring criteria of a region of the working copy, each 0 to 1, and its frame contact."""
+    import cv2
+
+    app = ctx.app
+    h, w = app.shape
+    area = float(region.sum())
+    m8 = region.astype(np.uint8)
+    filled = fill_holes(region, np.inf).astype(np.uint8)
+    cnts, _ = cv2.findContours(filled, cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE)
+    c = max(cnts, key=cv2.contourArea)
+    hull = float(cv2.contourArea(cv2.convexHull(c)))
+    solidity = min(1.0, float(filled.sum()) / max(hull + 0.5 * cv2.arcLength(c, True), 1.0))
+    k3 = np.ones((3, 3), np.uint8)
+    ring = (cv2.dilate(m8, k3, iterations=7) > 0) & ~(cv2.dilate(m8, k3, iterations=2) > 0) & ~ctx.refs
+    boundary = (m8 - cv2.erode(m8, k3)) > 0
+    # Strong: well above the edges of the texture round it (the ground's, or, for a region cut
+    # out of a textured member, that member's), measured clear of the boundary's own; the
+    # boundary's edge is the strongest within two pixels (a cut may sit a pixel or two off the
+    # blurred edge's ridge).
+    e_out = float(np.median(app.edge[ring])) if ring.any() else 0.0
+    strong = 2.5 * max(e_out, 0.5)
+    ridge = cv2.dilate(app.edge, np.ones((5, 5), np.uint8))
+    edge = float(np.mean(ridge[boundary] > strong)) if boundary.any() else 0.0
+    K = len(app.palette)
+    if ring.any():
+        hi = np.bincount(app.codes[region], minlength=K) + 0.5
+        ho = np.bincount(app.codes[ring], minlength=K) + 0.5
+        distinct = 1.0 - float(np.minimum(hi / hi.sum(), ho / ho.sum()).sum())
+    else:
+        distinct = 0.0
+    ys, xs = np.nonzero(region)
+    dx, dy = xs.mean() / w - 0.5, ys.mean() / h - 0.5
+    centre = 1.0 - min(1.0, math.hypot(dx, dy) / math.hypot(0.5, 0.5))
+    size = min(1.0, max(0.0, math.log10(area / (h * w) / _MIN_SHARE) / math.log10(0.3 / _MIN_SHARE)))
+    # How much it looks like the ground at the photo's edges (a tube's bore shows that ground).
+    ground_like = _ground_like(ctx, region)
+    return {"size": size, "solidity": solidity, "edge": edge, "distinct": distinct, "centre": centre,
+            "contact": _contact(region), "ground_like": ground_like}
 
 
-def _fill_small_holes(region: np.ndarray, *, min_area: float) -> np.ndarray:
+def _candidate(ctx: _Context, region: np.ndarray, crit: dict, source: str) -> Candidate:
+    ys, xs = np.nonzero(region)
+    score = sum(SCORE_WEIGHTS[k] * crit[k] for k in SCORE_WEIGHTS)
+    (cx, cy), = ctx.to_full([[xs.mean(), ys.mean()]])
+    size = ((xs.max() - xs.min() + 1) * ctx.scale[0], (ys.max() - ys.min() + 1) * ctx.scale[1])
+    return Candidate(mask=region, criteria=crit, score=float(score), centre=(float(cx), float(cy)), size=size,
+                     source=source)
+
+
+def _reference(ctx: _Context, region: np.ndarray) -> str | None:
+    """What scale reference the region is, if any, tested on the full photo's grey levels."""
+    import cv2
+
+    ys, xs = np.nonzero(region)
+    r0, r1, c0, c1 = ys.min(), ys.max() + 1, xs.min(), xs.max() + 1
+    (x0, y0), (x1, y1) = ctx.to_full([[c0 - 0.5, r0 - 0.5], [c1 - 0.5, r1 - 0.5]])
+    H, W = ctx.shape
+    X0, Y0, X1, Y1 = max(0, int(x0)), max(0, int(y0)), min(W, int(np.ceil(x1))), min(H, int(np.ceil(y1)))
+    if X1 - X0 < 8 or Y1 - Y0 < 8:
+        return None
+    gray = ctx.gray[Y0:Y1, X0:X1]
+    mask = cv2.resize(fill_holes(region[r0:r1, c0:c1], np.inf).astype(np.uint8), (X1 - X0, Y1 - Y0),
+                      interpolation=cv2.INTER_NEAREST).astype(bool)
+    return reference_kind(gray, mask)
+
+
+def _nest(cands: list[Candidate]) -> list[Candidate]:
+    """Mark each candidate that lies within another whole candidate's outline (it is part of
+    it), or that is a small part of a region reaching the border (it is no member alone)."""
+    filled = [fill_holes(c.mask, np.inf) for c in cands]
+    sizes = [int(f.sum()) for f in filled]
+    out = []
+    for i, c in enumerate(cands):
+        area = int(c.mask.sum())
+        holders = [j for j in range(len(cands)) if j != i and sizes[j] > area
+                   and (filled[j] & c.mask).sum() >= 0.9 * area]
+        # Only a credible member holds another: whole, and mostly outlined by strong edges (not
+        # a loose region of dark ground round a bright tube wall).
+        whole = [j for j in holders if not cands[j].cut_off and cands[j].criteria["edge"] >= _HOLDER_EDGE
+                 and cands[j].reference is None]
+        if whole:
+            out.append(replace(c, inside=min(whole, key=lambda j: sizes[j])))
+        elif any(sizes[i] < _MIN_SHARE_OF_HOLDER * sizes[j] for j in holders):
+            out.append(replace(c, inside=min(holders, key=lambda j: sizes[j])))
+        else:
+            out.append(c)
+    return out
+
+
+def _look_classes(app: Appearance) -> np.ndarray:
+    """Palette entries grouped by colour (complete linkage: every two entries of a group within
+    ΔE*ab 20 of each other), per pixel, with a 5 x 5 median against specks."""
+    import cv2
+
+    lab = app.palette[:, :3] / np.array([1.0, _CHROMA, _CHROMA], np.float32)
+    d = np.sqrt(np.square(lab[:, None, :] - lab[None, :, :]).sum(axis=2))
+    K = len(lab)
+    label = np.arange(K)
+    np.fill_diagonal(d, np.inf)
+    # Merge the two closest groups while their farthest pair is within the bound; a merged
+    # group's distance to another is the larger of its parts' (complete linkage).
+    for _ in range(K - 1):
+        i, j = np.unravel_index(np.argmin(d), d.shape)
+        if d[i, j] > _CLASS_DE:
+            break
+        d[i, :] = d[:, i] = np.maximum(d[i, :], d[j, :])
+        d[i, i] = np.inf
+        d[j, :] = d[:, j] = np.inf
+        label[label == j] = i
+    label = np.unique(label, return_inverse=True)[1].astype(np.uint8)
+    return cv2.medianBlur(label[app.codes], 5)
+
+
+def _components(mask: np.ndarray, min_area: float) -> list[np.ndarray]:
+    import cv2
+
+    n, labels, stats, _ = cv2.connectedComponentsWithStats(mask.astype(np.uint8), connectivity=4)
+    return [labels == i for i in range(1, n) if stats[i, cv2.CC_STAT_AREA] >= min_area]
+
+
+def _contact(region: np.ndarray) -> float:
+    """Share of the region's boundary that lies along the image frame (its outer two rings of
+    pixels: the outermost is held to the ground in the cuts)."""
+    import cv2
+
+    near = int(region[:2].sum() + region[-2:].sum() + region[2:-2, :2].sum() + region[2:-2, -2:].sum())
+    if near == 0:
+        return 0.0
+    cnts, _ = cv2.findContours(region.astype(np.uint8), cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE)
+    perimeter = sum(cv2.arcLength(c, True) for c in cnts)
+    return 0.5 * near / max(perimeter, 1.0)
+
+
+def _frame_share(region: np.ndarray) -> float:
+    """Share of the image frame's length (its second ring of pixels) that the region covers."""
+    ring = np.concatenate([region[1, 1:-1], region[-2, 1:-1], region[2:-2, 1], region[2:-2, -2]])
+    return float(ring.mean())
+
+
+def _frame(h: int, w: int) -> np.ndarray:
+    m = np.zeros((h, w), bool)
+    m[0] = m[-1] = True
+    m[:, 0] = m[:, -1] = True
+    return m
+
+
+def _part_of(app: Appearance, a: np.ndarray, b: np.ndarray) -> bool:
+    """Region `a` is a piece of `b`: it lies mostly within `b` grown by two pixels and looks
+    alike (half or more of their palettes' shares in common); a sliver along a member's edge."""
+    import cv2
+
+    grown = cv2.dilate(b.astype(np.uint8), np.ones((5, 5), np.uint8)).astype(bool)
+    if float((a & grown).sum()) < 0.5 * float(a.sum()):
+        return False
+    K = len(app.palette)
+    ha = np.bincount(app.codes[a], minlength=K) / max(int(a.sum()), 1)
+    hb = np.bincount(app.codes[b], minlength=K) / max(int(b.sum()), 1)
+    return float(np.minimum(ha, hb).sum()) >= 0.5
+
+
+def _hull(region: np.ndarray) -> np.ndarray:
+    """The region's convex hull, filled."""
+    import cv2
+
+    pts = cv2.findNonZero(region.astype(np.uint8))
+    out = np.zeros(region.shape, np.uint8)
+    cv2.fillConvexPoly(out, cv2.convexHull(pts), 1)
+    return out.astype(bool)
+
+
+def _iou(a: np.ndarray, b: np.ndarray) -> float:
+    return float((a & b).sum()) / max(float((a | b).sum()), 1.0)
+
+
+def _shading(light: np.ndarray, strip: np.ndarray) -> np.ndarray:
+    """The uneven light over the working copy, from the border strip (the ground, mostly).
+
+    A quadratic in x and y is fitted to the log lightness of the strip's pixels by least squares
+    reweighted against outliers (Tukey's biweight, four rounds); light multiplies member and
+    ground alike, so dividing by it evens both. Where the quadratic explains too little of the
+    strip's variation (a mixed border, not shading), or would swing more than threefold, the
+    light is taken as even (1 everywhere).
+    """
+    h, w = light.shape[:2]
+    lum = np.maximum(light @ np.array([0.0722, 0.7152, 0.2126], np.float32), 1e-4)   # BGR: Rec. 709 Y
+    ys, xs = np.nonzero(strip)
+    u, v = xs / max(w - 1, 1) - 0.5, ys / max(h - 1, 1) - 0.5
+    A = np.column_stack([np.ones_like(u), u, v, u * u, u * v, v * v])
+    y = np.log(lum[ys, xs])
+    wts = np.ones_like(y)
+    coef = np.zeros(6)
+    for _ in range(4):
+        sw = np.sqrt(wts)
+        coef = np.linalg.lstsq(A * sw[:, None], y * sw, rcond=None)[0]
+        r = y - A @ coef
+        scale = 4.685 * 1.4826 * max(float(np.median(np.abs(r))), 1e-3)
+        wts = np.where(np.abs(r) < scale, (1 - (r / scale) ** 2) ** 2, 0.0)
+    fit = A @ coef
+    explained = 1.0 - float(np.sum(wts * (y - fit) ** 2)) / max(float(np.sum(wts * (y - np.average(y, weights=wts)) ** 2)), 1e-12)
+    uu, vv = np.meshgrid(np.linspace(-0.5, 0.5, w), np.linspace(-0.5, 0.5, h))
+    field = coef[1] * uu + coef[2] * vv + coef[3] * uu * uu + coef[4] * uu * vv + coef[5] * vv * vv
+    field -= np.median(field)
+    if explained < _SHADING_EXPLAINS or np.ptp(field) > math.log(3.0):
+        return np.ones((h, w), np.float32)
+    return np.exp(field).astype(np.float32)
+
+
+def _border_strip(h: int, w: int) -> np.ndarray:
+    b = max(2, int(round(_BORDER_SHARE * min(h, w))))
+    m = np.zeros((h, w), bool)
+    m[:b] = m[-b:] = True
+    m[:, :b] = m[:, -b:] = True
+    return m
+
+
+def _rim(outside: np.ndarray) -> np.ndarray:
+    """The ring just outside a box (the box's own edge pixels included)."""
+    import cv2
+
+    k = np.ones((5, 5), np.uint8)
+    inside = ~outside
+    return (cv2.dilate(inside.astype(np.uint8), k) > 0) & ~(cv2.erode(inside.astype(np.uint8), k) > 0)
+
+
+def fill_holes(region: np.ndarray, min_area: float) -> np.ndarray:
     """Fill the holes of `region` smaller than `min_area` [px²]; larger ones are real openings."""
     import cv2
 
     ys, xs = np.nonzero(region.any(axis=1))[0], np.nonzero(region.any(axis=0))[0]
     if not len(ys):
         return region
-    # Within the region's box and a pixel round it: what reaches the frame is outside.
     r0, r1, c0, c1 = max(0, ys[0] - 1), ys[-1] + 2, max(0, xs[0] - 1), xs[-1] + 2
     crop = region[r0:r1, c0:c1]
-    holes = (~crop).astype(np.uint8)
-    n, labels, stats, _ = cv2.connectedComponentsWithStats(holes, connectivity=4)
-    h, w = crop.shape
+    n, labels, stats, _ = cv2.connectedComponentsWithStats((~crop).astype(np.uint8), connectivity=4)
+    hh, ww = crop.shape
     x, y, bw, bh, area = stats.T
-    outside = (x == 0) | (y == 0) | (x + bw == w) | (y + bh == h)
+    outside = (x == 0) | (y == 0) | (x + bw == ww) | (y + bh == hh)
     fill = ~outside & (area < min_area)
-    fill[0] = False                                   # label 0 is the region itself
+    fill[0] = False
     out = region.copy()
     out[r0:r1, c0:c1] |= fill[labels]
     return out
 
 
-def _looks_like_board(region: np.ndarray, same: np.ndarray) -> bool:
-    """A checkerboard target (its sheet, or some of its squares run together at their corners).
-
-    `same` is the region's class before the texture was closed over. Either the region's own
-    pixels or the other class's inside its outline fall into six or more alike, squarish
-    patches, each as far from its nearest neighbour as a diagonal step of a board (about √2
-    times their side). The cells of a multi-cell hollow section sit closer (side plus a wall),
-    and a member's own pixels are one patch: both are kept.
-    """
+def _fill_narrow_holes(member: np.ndarray, *, min_width: float) -> np.ndarray:
+    """Fill the holes that are texture: narrower than `min_width` [px] or than a share
+    (:data:`_HOLE_WIDTH_SHARE`) of the member's equivalent diameter (a check, a crack, the pith,
+    a knot's dark ring); wider ones (a bore, a bolt hole) stay openings."""
     import cv2
 
-    filled = _fill_small_holes(region, min_area=np.inf)
-    cross = np.ones((3, 3), np.uint8)               # squares meeting at a corner come apart
-    return any(_squares_in_a_lattice(cv2.erode(m.astype(np.uint8), cross))
-               for m in (region & same, filled & ~same))
+    solid = fill_holes(member, np.inf)
+    holes = (solid & ~member).astype(np.uint8)
+    if not holes.any():
+        return member
+    diameter = 2.0 * math.sqrt(float(solid.sum()) / math.pi)
+    width = max(min_width, _HOLE_WIDTH_SHARE * diameter)
+    n, labels = cv2.connectedComponents(holes, connectivity=4)
+    # Each hole's width: twice the largest distance from its pixels to the member.
+    dist = cv2.distanceTransform(holes, cv2.DIST_L2, 5)
+    widest = np.zeros(n)
+    np.maximum.at(widest, labels.ravel(), dist.ravel())
+    narrow = 2.0 * widest < width
+    narrow[0] = False
+    return member | narrow[labels]
 
 
-def _squares_in_a_lattice(patches: np.ndarray) -> bool:
+def _rings(mask: np.ndarray, step: tuple[float, float], origin: tuple[float, float]) -> list[np.ndarray]:
+    """Boundary rings of a mask in full-size pixels, outer first, smoothed (see Segmentation)."""
     import cv2
 
-    n, labels, stats, cents = cv2.connectedComponentsWithStats(patches, connectivity=4)
-    x, y, bw, bh, area = stats.T
-    keep = area >= 9
-    keep[0] = False
-    if keep.sum() < 6:
-        return False
-    med = float(np.median(area[keep]))
-    alike = keep & (area > med / 1.6) & (area < med * 1.6) & (bw < 1.7 * bh) & (bh < 1.7 * bw)
-    if alike.sum() < 6:
-        return False
-    c = cents[alike]
-    d = np.hypot(*(c[:, None, :] - c[None, :, :]).transpose(2, 0, 1))
-    np.fill_diagonal(d, np.inf)
-    ratio = float(np.median(d.min(axis=1))) / np.sqrt(med)
-    return 1.25 <= ratio <= 1.8
-
-
-def _looks_like_ruler(region: np.ndarray) -> bool:
-    """A long straight strip whose edge is notched by many graduation marks."""
-    import cv2
-
-    cnts, _ = cv2.findContours(region.astype(np.uint8), cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE)
+    # Contours of the mask enlarged 2x trace the pixel edges' midpoints; a light circular
+    # smoothing along each takes out the stair steps.
+    big = cv2.resize(mask.astype(np.uint8), None, fx=2, fy=2, interpolation=cv2.INTER_NEAREST)
+    cnts, hier = cv2.findContours(big, cv2.RETR_CCOMP, cv2.CHAIN_APPROX_NONE)
     if not cnts:
-        return False
-    c = max(cnts, key=cv2.contourArea)
-    (_, _), (a, b), _ = cv2.minAreaRect(c)
-    if min(a, b) == 0 or max(a, b) / min(a, b) < 5:
-        return False
-    hull = cv2.convexHull(c, returnPoints=False)
-    try:
-        defects = cv2.convexityDefects(c, hull)
-    except cv2.error:
-        return False
-    if defects is None:
-        return False
-    deep = np.count_nonzero(defects.reshape(-1, 4)[:, 3] / 256.0 > 1.0)
-    return deep >= 15
+        return []
+    outer = [i for i in range(len(cnts)) if hier[0][i][3] < 0]
+    main = max(outer, key=lambda i: cv2.contourArea(cnts[i]))
+    holes = [i for i in range(len(cnts)) if hier[0][i][3] == main]
+    out = []
+    for i in [main] + holes:
+        c = cnts[i].reshape(-1, 2).astype(np.float64)
+        if len(c) < 8:
+            continue
+        c = _smooth_closed(c, 2.0)
+        xy = (c + 0.5) / 2.0 - 0.5                      # back to the mask's pixel grid
+        out.append((xy + 0.5) * np.asarray(step) - 0.5 + np.asarray(origin, float))
+    return out
+
+
+def _smooth_closed(pts: np.ndarray, sigma: float) -> np.ndarray:
+    """Gaussian smoothing of a closed polyline's points along it (circular convolution)."""
+    n = len(pts)
+    r = int(math.ceil(3 * sigma))
+    if n < 2 * r + 1:
+        return pts
+    k = np.exp(-0.5 * (np.arange(-r, r + 1) / sigma) ** 2)
+    k /= k.sum()
+    padded = np.concatenate([pts[-r:], pts, pts[:r]])
+    return np.column_stack([np.convolve(padded[:, j], k, mode="valid") for j in range(2)])
