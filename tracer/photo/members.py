@@ -26,7 +26,8 @@ def log_section(*, d: float, bark: float = 0.0, wobble: float = 0.03, tears: int
     d : float
         Mean diameter of the wood [mm].
     bark : float
-        The bark's median thickness [mm]; 0 for a debarked log.
+        The bark's median thickness [mm]: the median over the wood's outline of the distance
+        to the outside (as shapely measures it); 0 for a debarked log.
     wobble : float
         Size of the outline's low harmonics (2nd to 5th order), as a share of the radius.
     tears : int
@@ -44,6 +45,8 @@ def log_section(*, d: float, bark: float = 0.0, wobble: float = 0.03, tears: int
         The whole log as seen, bark included, and the wood inside the bark (the same as the
         whole without bark). Both outlines are star-shaped about `centre`, so always simple.
     """
+    import shapely
+
     if not d > 0:
         raise ValueError(f"log_section: d = {d!r}; give a diameter above 0 mm")
     if not 0 <= bark < d / 4:
@@ -67,8 +70,16 @@ def log_section(*, d: float, bark: float = 0.0, wobble: float = 0.03, tears: int
         at, half = rng.uniform(0.0, 2 * math.pi), rng.uniform(0.05, 0.15) * math.pi
         off = np.abs(np.angle(np.exp(1j * (th - at)))) + 0.05 * rough             # ragged ends
         torn = np.where(off < half, np.minimum(torn, rng.uniform(0.2, 0.5)), torn)
-    t = np.clip(bark * (1.0 + slow + rough) * torn, 0.15 * bark, 1.8 * bark)
-    r_out = r_wood + t
+    t = np.clip((1.0 + slow + rough) * torn, 0.15, 1.8)
+    # Scale so that the median distance from the wood to the outside (shapely's, along the
+    # normal, which the roughness makes shorter than the radial one) is `bark`.
+    probe = shapely.points(wood[::4])
+    scale = bark
+    for _ in range(3):
+        r_out = r_wood + scale * t
+        ring = shapely.LinearRing(np.column_stack([centre[0] + r_out * np.cos(th), centre[1] + r_out * np.sin(th)]))
+        scale *= bark / float(np.median(shapely.distance(ring, probe)))
+    r_out = r_wood + scale * t
     whole = np.column_stack([centre[0] + r_out * np.cos(th), centre[1] + r_out * np.sin(th)])
     return Section(whole), Section(wood)
 
@@ -110,6 +121,9 @@ def waney_board(*, b: float, h: float, log_d: float, wane: float, bark: float = 
         raise ValueError(f"waney_board: a log of d = {log_d:g} mm cannot reach both sides of the board "
                          f"({far:g} mm from its axis); give log_d above {2 * far:g} mm")
     yc = h - wane - math.sqrt((log_d / 2) ** 2 - far ** 2)
+    if yc + log_d / 2 <= h:
+        raise ValueError(f"waney_board: wane = {wane:g} mm leaves no sawn top face on a log of d = {log_d:g} mm; "
+                         "give a smaller wane or a larger log")
     whole, wood = log_section(d=log_d, bark=bark, wobble=0.008, tears=1, centre=(xc, yc), seed=seed)
     board = shapely.box(0.0, 0.0, b, h)
     return (Section.from_shapely(board.intersection(whole.to_shapely())),
@@ -171,7 +185,9 @@ def corroded_section(section: Section, *, loss: float = 0.3, pits: int = 10, dep
             centre = np.asarray(c) + out_dir * (r - d)
             blobs.append(shapely.Polygon(np.column_stack([centre[0] + rr * np.cos(a), centre[1] + rr * np.sin(a)])))
         shape = shapely.make_valid(shape.difference(shapely.union_all(blobs)))
-    polys = [g for g in getattr(shape, "geoms", [shape]) if g.geom_type == "Polygon" and g.area > 1e-6]
+    polys = [g for g in getattr(shape, "geoms", [shape]) if g.geom_type == "Polygon"]
+    biggest = max(g.area for g in polys)
+    polys = [g for g in polys if g.area > 0.01 * biggest]     # crumbs a pit cut off fall away
     return Section.from_shapely(shapely.MultiPolygon(polys) if len(polys) > 1 else polys[0])
 
 

@@ -266,7 +266,8 @@ def _image_scale(Hc: np.ndarray, size: tuple[int, int], at: tuple[float, float] 
         at = (c[0] / c[2], c[1] / c[2])
     p = np.array([[at[0], at[1], 1.0], [at[0] + 1.0, at[1], 1.0], [at[0], at[1] + 1.0, 1.0]]) @ Hc.T
     p = p[:, :2] / p[:, 2:]
-    return math.sqrt(abs(np.cross(p[1] - p[0], p[2] - p[0])))
+    (ax, ay), (bx, by) = p[1] - p[0], p[2] - p[0]
+    return math.sqrt(abs(ax * by - ay * bx))
 
 
 def _footprint(Hc: np.ndarray, size: tuple[int, int]) -> tuple[np.ndarray, np.ndarray]:
