@@ -62,9 +62,14 @@ def log_section(*, d: float, bark: float = 0.0, wobble: float = 0.03, tears: int
         return s, s
     slow = 0.12 * rng.normal(0.0, 1.0, 6) / np.arange(1, 7) @ np.cos(np.outer(np.arange(3, 9), th)
                                                                        + rng.uniform(0, 2 * math.pi, 6)[:, None])
-    high = np.arange(12, 160)                                  # flakes and fibres of the outer bark
-    rough = (1.05 / high) * rng.normal(0.0, 1.0, len(high)) @ np.cos(                 # spread about 0.3
+    high = np.arange(12, 80)                                   # plates and flakes of the outer bark
+    rough = (0.55 / high) * rng.normal(0.0, 1.0, len(high)) @ np.cos(                 # spread about 0.15
         np.outer(high, th) + rng.uniform(0, 2 * math.pi, len(high))[:, None])
+    fine = np.arange(80, 240)                                  # fibres, ragged in places only
+    places = np.clip(1.5 * (rng.normal(0.0, 1.0, 4) @ np.cos(np.outer(np.arange(2, 6), th)
+                                                             + rng.uniform(0, 2 * math.pi, 4)[:, None])) - 0.5, 0, 1)
+    rough = rough + places * ((0.9 / fine) * rng.normal(0.0, 1.0, len(fine)) @ np.cos(
+        np.outer(fine, th) + rng.uniform(0, 2 * math.pi, len(fine))[:, None]))
     torn = np.ones(n)
     for _ in range(tears):
         at, half = rng.uniform(0.0, 2 * math.pi), rng.uniform(0.05, 0.15) * math.pi

@@ -542,11 +542,13 @@ def _sand(plane: Plane, rng: np.random.Generator, light_from: float) -> np.ndarr
     a = rng.uniform(0.0, math.pi)
     mx, my = plane.xy()
     ripple = np.sin(2 * np.pi * (mx * math.cos(a) + my * math.sin(a)) / rng.uniform(25.0, 45.0)
-                    + 2.0 * noise(rng, h, w, 30.0 * s))
+                    + 0.8 * noise(rng, h, w, 40.0 * s))
     grains = rng.standard_normal((h, w)).astype(np.float32)
-    v = 7.0 * ripple + 6.0 * noise(rng, h, w, 50.0 * s) + 6.0 * grains
+    v = 4.0 * ripple + 6.0 * noise(rng, h, w, 50.0 * s) + 3.0 * noise(rng, h, w, 1.5 * s) + 7.0 * grains
     v += np.where(grains > 2.5, -55.0, 0.0) + np.where(grains < -2.6, 30.0, 0.0)
-    base = _rgb(*rng.uniform((192, 172, 128), (212, 192, 150)))
+    r = rng.uniform(192.0, 214.0)
+    g = r - rng.uniform(14.0, 24.0)                         # beige: red over green over blue
+    base = _rgb(r, g, g - rng.uniform(36.0, 50.0))
     return base + v[..., None]
 
 

@@ -29,6 +29,8 @@ __all__: list[str] = []
 # still lights a shadow, so shadows come out a little blue (common practice in photography).
 _SHADOW_DEPTH = 0.6
 _SHADOW_TINT = np.array([0.85, 0.95, 1.0], dtype=np.float32)
+# Share of the light taken from the ground seen through a hollow member (its inside is in shade).
+_HOLLOW_SHADE = 0.6
 # sRGB levels <-> light x 255 as tables (the site look's textures are many pixels deep).
 _LIGHT_TABLE = (to_light(np.arange(4097, dtype=np.float32) / 4096) * 255.0).astype(np.float32)
 _LEVELS_TABLE = (to_levels(np.arange(65536, dtype=np.float32) / 65535) * 255.0).astype(np.float32)
@@ -86,6 +88,9 @@ def site_layers(scene: Scene, P: np.ndarray, Hc: np.ndarray, size: tuple[int, in
             f = side[..., None]
             img = img * (1 - f) + light(levels) * _side_shading(quads, lit, size)[..., None] * f
             busy = np.maximum(busy, side)
+    holes = [r for r, hole in rings if hole]
+    if holes:                                                 # a hollow member's inside is in its own shade
+        img *= (1.0 - _HOLLOW_SHADE * cover(holes))[..., None]
     m = cover([r for r, _ in rings], [-1 if hole else 1 for _, hole in rings])
     busy = np.maximum(busy, m)
     box, face, bark = _face_light(scene, Hc, size, light, finish, on_face, inside)

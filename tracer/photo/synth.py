@@ -351,7 +351,7 @@ def render(scene: Scene) -> Render:
 def site_scenes() -> list[tuple[str, Scene]]:
     """A named set of site-like scenes (invented members on invented grounds) with known truth.
 
-    Forty-four scenes over every member kind (joist, waney board, log with bark, i-section,
+    Forty-five scenes over every member kind (joist, waney board, log with bark, i-section,
     channel, angle, tee, tube, box, round bar, corroded steel), every ground, finish and mark,
     cast shadows, glints, strongly uneven light, camera tilts up to 10 deg and side faces seen
     from an off-centre camera; on purpose also the hard ones: grey steel on grey concrete, a log
@@ -451,6 +451,8 @@ def site_scenes() -> list[tuple[str, Scene]]:
         sec, wood = member if isinstance(member, tuple) else (member, None)
         x0, y0, x1, y1 = sec.bounds
         dx, dy = -x0, -(y0 + y1) / 2                          # left edge at x = 0, middle at y = 0
+        if "pith" in kw:                                      # given in the member's own frame
+            kw = dict(kw, pith=(kw["pith"][0] + dx, kw["pith"][1] + dy))
         # The target's paper ends 25 mm left of the member, its middle level with the member's.
         at = (-25.0 - (9 + 0.6) * 15.0, -(6 - 1) / 2 * 15.0)
         scene = Scene(section=sec.translated(dx, dy), under_bark=None if wood is None else wood.translated(dx, dy),
