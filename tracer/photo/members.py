@@ -42,8 +42,8 @@ def log_section(*, d: float, bark: float = 0.0, wobble: float = 0.03, tears: int
     Returns
     -------
     section, under_bark : Section
-        The whole log as seen, bark included, and the wood inside the bark (the same as the
-        whole without bark). Both outlines are star-shaped about `centre`, so always simple.
+        The whole log as seen, bark included, and the wood inside the bark (the same object as
+        the whole without bark). Both outlines are star-shaped about `centre`, so always simple.
     """
     import shapely
 
@@ -112,7 +112,7 @@ def waney_board(*, b: float, h: float, log_d: float, wane: float, bark: float = 
     Returns
     -------
     section, under_bark : Section
-        The board as seen, bark included, and its wood (the same without bark).
+        The board as seen, bark included, and its wood (the same object without bark).
     """
     import shapely
 
@@ -131,8 +131,8 @@ def waney_board(*, b: float, h: float, log_d: float, wane: float, bark: float = 
                          "give a smaller wane or a larger log")
     whole, wood = log_section(d=log_d, bark=bark, wobble=0.008, tears=1, centre=(xc, yc), seed=seed)
     board = shapely.box(0.0, 0.0, b, h)
-    return (Section.from_shapely(board.intersection(whole.to_shapely())),
-            Section.from_shapely(board.intersection(wood.to_shapely())))
+    section = Section.from_shapely(board.intersection(whole.to_shapely()))
+    return section, (section if bark == 0 else Section.from_shapely(board.intersection(wood.to_shapely())))
 
 
 def corroded_section(section: Section, *, loss: float = 0.3, pits: int = 10, depth: float = 1.5, size: float = 4.0,

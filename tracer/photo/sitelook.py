@@ -127,7 +127,7 @@ def _face_light(scene: Scene, Hc: np.ndarray, size: tuple[int, int], light, fini
     shape = sec.to_shapely()
     if scene.member == "timber":
         wood = scene.under_bark if scene.under_bark is not None else sec
-        pith = scene.pith if scene.pith is not None else _default_pith(wood, scene.under_bark is not None, rng)
+        pith = scene.pith if scene.pith is not None else _default_pith(wood, sec, scene.under_bark is not None, rng)
         outline = np.concatenate([p.exterior for p in wood.parts])
         reach = float(np.max(np.hypot(*(outline - pith).T)))
         levels = scenery.wood_levels(plane, rng, finish=finish, pith=pith, reach=reach,
@@ -154,12 +154,28 @@ def _face_light(scene: Scene, Hc: np.ndarray, size: tuple[int, int], light, fini
     return box, out, _warp(light(bark), to_box, (r1 - r0, c1 - c0))
 
 
-def _default_pith(wood: Section, log: bool, rng: np.random.Generator) -> tuple[float, float]:
-    """A log's pith lies near the centre of its wood, a little off; a board's below it (plain look)."""
+def _default_pith(wood: Section, whole: Section, barked: bool, rng: np.random.Generator) -> tuple[float, float]:
+    """Where the pith lies when not given.
+
+    With bark: the centre of the circle that best fits the wood's outline under the bark (the
+    stem's round: all of a log's outline, a waney board's wane), by the algebraic least-squares
+    fit of Kasa [1], a little off as piths are. Without: below the member, as in the plain look.
+
+    .. [1] I. Kasa, "A circle fitting procedure and its error analysis," *IEEE Trans. Instrum.
+           Meas.*, vol. IM-25, no. 1, pp. 8-14, 1976, doi: 10.1109/TIM.1976.6312298.
+    """
+    import shapely
+
     x0, y0, x1, y1 = wood.bounds
-    if log:
-        c = wood.to_shapely().centroid
-        return (c.x + rng.normal(0.0, 0.04) * (x1 - x0), c.y + rng.normal(0.0, 0.04) * (y1 - y0))
+    if barked:
+        pts = np.concatenate([p.exterior for p in wood.parts])
+        under = shapely.distance(whole.to_shapely().exterior, shapely.points(pts)) > 1e-6
+        if under.sum() >= 8:
+            x, y = pts[under, 0], pts[under, 1]
+            A = np.column_stack([x, y, np.ones(len(x))])
+            (cx2, cy2, _), *_ = np.linalg.lstsq(A, x * x + y * y, rcond=None)    # x^2 + y^2 = 2 a x + 2 b y + c
+            r = math.sqrt(max((x1 - x0) * (y1 - y0), 1.0))
+            return (cx2 / 2 + rng.normal(0.0, 0.03) * r, cy2 / 2 + rng.normal(0.0, 0.03) * r)
     return ((x0 + x1) / 2, y0 - 0.3 * (y1 - y0))
 
 

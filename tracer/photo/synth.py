@@ -116,8 +116,9 @@ class Scene:
     checks : int
         Radial drying checks in the end grain (dark cracks that open towards the outside).
     pith : (x, y) or None
-        The pith [mm, the frame of `section`]; it may lie outside the member. None: near the
-        centre of the wood under bark, else below the section as in the plain look.
+        The pith [mm, the frame of `section`]; it may lie outside the member. None: with bark,
+        near the centre of the circle that fits the wood's outline under the bark (a log's
+        middle, a waney board's log axis); without, below the section as in the plain look.
     marks : tuple of str
         Marks on the face, one per entry: ``"chalk"``, ``"crayon"`` or ``"paint"``.
     shadow : float
@@ -408,7 +409,8 @@ def site_scenes() -> list[tuple[str, Scene]]:
         ("log-wood-chips", log_b, 3.0, dict(ground="wood chips", checks=2, tilt=7.0, tilt_axis=150.0)),
         ("log-sand-side", log_c, 2.4, dict(ground="sand", checks=3, member_length=400.0, camera_shift=(250.0, 60.0))),
         ("log-decking", log_b, 3.0, dict(ground="decking", marks=("paint",), light=0.4, light_from=300.0)),
-        ("log-gravel-debarked", log_d, 2.8, dict(ground="gravel", checks=6, finish="sawn", shadow=30.0)),
+        ("log-gravel-debarked", log_d, 2.8, dict(ground="gravel", checks=6, finish="sawn", shadow=30.0,
+                                                 pith=(3.0, -4.0))),
         ("board-gravel", board_a, 4.2, dict(ground="gravel", tilt=5.0, tilt_axis=80.0)),
         ("board-decking", board_b, 3.2, dict(ground="decking", shadow=20.0, light_from=45.0)),
         ("board-grass", board_c, 3.6, dict(ground="grass", finish="sawn", checks=2, tilt=8.0)),
@@ -449,6 +451,7 @@ def site_scenes() -> list[tuple[str, Scene]]:
     out = []
     for i, (name, member, ppm, kw) in enumerate(specs):
         sec, wood = member if isinstance(member, tuple) else (member, None)
+        wood = None if wood is sec else wood                  # no bark: no wood under it to draw
         x0, y0, x1, y1 = sec.bounds
         dx, dy = -x0, -(y0 + y1) / 2                          # left edge at x = 0, middle at y = 0
         if "pith" in kw:                                      # given in the member's own frame
