@@ -5,8 +5,9 @@ homography), the member's cast shadow and glints on it, the side faces the camer
 the light's direction, streaked along the member), the face (end grain with checks and pith, or
 steel), the bark, marks and glints on the face; then the light's fall-off, the sRGB encoding and
 a colour camera's noise. Textures come from :mod:`tracer.photo.scenery`; what is filled exactly
-(coverage of the face, the side faces, the bark's wood) comes from the renderer's `cover`.
-Private to the renderer: no public names.
+(coverage of the face, the side faces, the bark's wood) comes from the renderer's `cover`,
+which in the site look is :func:`coverage_exact`, each pixel's exact share of area. Also the
+checks of the site fields. Private to the renderer: no public names.
 """
 
 from __future__ import annotations
@@ -34,6 +35,119 @@ _HOLLOW_SHADE = 0.6
 # sRGB levels <-> light x 255 as tables (the site look's textures are many pixels deep).
 _LIGHT_TABLE = (to_light(np.arange(4097, dtype=np.float32) / 4096) * 255.0).astype(np.float32)
 _LEVELS_TABLE = (to_levels(np.arange(65536, dtype=np.float32) / 65535) * 255.0).astype(np.float32)
+
+
+def check_site(scene: Scene) -> None:
+    """Refuse site fields out of range or not fitting the member, with what to give instead."""
+    from .scenery import GROUNDS, MARKS, STEEL_FINISHES, WOOD_FINISHES
+
+    if scene.member not in ("timber", "steel"):
+        raise ValueError(f"member = {scene.member!r}; use 'timber' or 'steel'")
+    timber = scene.member == "timber"
+    if scene.ground is not None and scene.ground not in GROUNDS:
+        raise ValueError(f"ground = {scene.ground!r} is not a ground; use one of {', '.join(GROUNDS)}")
+    finishes = WOOD_FINISHES if timber else STEEL_FINISHES
+    if scene.finish is not None and scene.finish not in finishes:
+        raise ValueError(f"finish = {scene.finish!r} does not suit a {scene.member} member; "
+                         f"use one of {', '.join(finishes)}")
+    bad = [m for m in scene.marks if m not in MARKS]
+    if bad:
+        raise ValueError(f"mark {bad[0]!r} is not a mark; use one of {', '.join(MARKS)}")
+    for name in ("checks", "glints"):
+        v = getattr(scene, name)
+        if not isinstance(v, (int, np.integer)) or v < 0:
+            raise ValueError(f"{name} = {v!r}; give a count of 0 or more")
+    if not (math.isfinite(scene.shadow) and scene.shadow >= 0):
+        raise ValueError(f"shadow = {scene.shadow!r}; give a reach of 0 mm or more")
+    if not timber:
+        for name in ("under_bark", "pith"):
+            if getattr(scene, name) is not None:
+                raise ValueError(f"{name} is for timber; this member is steel")
+        if scene.checks:
+            raise ValueError("checks are for timber; this member is steel")
+    if scene.under_bark is not None:
+        if scene.section is None:
+            raise ValueError("under_bark needs the member's section as well")
+        if not scene.section.to_shapely().buffer(1e-6).covers(scene.under_bark.to_shapely()):
+            raise ValueError("under_bark must lie inside the section (the bark is the part outside it)")
+
+
+def coverage_exact(polys: list[np.ndarray], signs: list[int] | None, Hc: np.ndarray, size: tuple[int, int], *,
+                    mapped: bool = False) -> np.ndarray:
+    """Share of each pixel's area inside the union of mapped polygons (holes with sign -1),
+    float32 (H, W), exact.
+
+    Each edge is cut where it crosses a pixel's side; a piece inside a pixel adds to that pixel
+    the signed area between it and the pixel's right side, and its whole height to the pixel on
+    the right; a running sum along each row then gives the area of every pixel inside (the
+    accumulation of signed areas that font rasterisers use). Exteriors run one way round and
+    holes the other, so holes take their area back; where polygons overlap (side faces) the sum
+    is capped at 1. Every array operation runs over all pieces of all edges at once; unlike a
+    fill on a finer grid there is no step of 1/4 px in where an edge may fall, so the share
+    summed over the image is the polygon's area to rounding.
+    """
+    H, W = size
+    starts, ends = [], []
+    for i, poly in enumerate(polys):
+        q = np.asarray(poly, dtype=np.float64)
+        if not mapped:
+            q = np.column_stack([q, np.ones(len(q))]) @ Hc.T
+            q = q[:, :2] / q[:, 2:]
+        q = q + 0.5                                              # pixel j covers [j, j + 1)
+        nxt = np.roll(q, -1, axis=0)
+        twice = float(np.sum(q[:, 0] * nxt[:, 1] - nxt[:, 0] * q[:, 1]))
+        if twice == 0.0:
+            continue
+        if (twice > 0) != bool(signs and signs[i] < 0):          # exteriors one way, holes the other
+            q = q[::-1]
+            nxt = np.roll(q, -1, axis=0)
+        starts.append(q)
+        ends.append(nxt)
+    out = np.zeros((H, W), np.float32)
+    if not starts:
+        return out
+    a, b = np.concatenate(starts), np.concatenate(ends)
+    # The parameters t in [0, 1] along each edge where it crosses x or y = an integer.
+    cuts = [np.arange(len(a)), np.arange(len(a))]
+    ts = [np.zeros(len(a)), np.ones(len(a))]
+    for axis in (0, 1):
+        lo = np.ceil(np.minimum(a[:, axis], b[:, axis]))
+        n = np.maximum(np.floor(np.maximum(a[:, axis], b[:, axis])) - lo + 1, 0).astype(np.int64)
+        n[a[:, axis] == b[:, axis]] = 0
+        edge = np.repeat(np.arange(len(a)), n)
+        at = np.repeat(lo, n) + (np.arange(int(n.sum())) - np.repeat(np.cumsum(n) - n, n))
+        cuts.append(edge)
+        ts.append((at - a[edge, axis]) / (b[edge, axis] - a[edge, axis]))
+    edge, t = np.concatenate(cuts), np.clip(np.concatenate(ts), 0.0, 1.0)
+    order = np.lexsort((t, edge))
+    edge, t = edge[order], t[order]
+    same = edge[1:] == edge[:-1]
+    e, t0, t1 = edge[:-1][same], t[:-1][same], t[1:][same]
+    d = b[e] - a[e]
+    p0 = a[e] + t0[:, None] * d
+    p1 = a[e] + t1[:, None] * d
+    dy = p1[:, 1] - p0[:, 1]
+    mid = 0.5 * (p0 + p1)
+    col, row = np.floor(mid[:, 0]).astype(np.int64), np.floor(mid[:, 1]).astype(np.int64)
+    keep = (dy != 0) & (row >= 0) & (row < H) & (col < W)
+    col, row, dy, xm = col[keep], row[keep], dy[keep], mid[keep, 0]
+    if len(row) == 0:
+        return out
+    r0, r1 = int(row.min()), int(row.max()) + 1
+    c0 = max(0, int(col.min()))
+    c1 = min(W, int(col.max()) + 1)
+    width = c1 - c0 + 1
+    left = col < c0                                              # wholly left of the box: all to the right
+    here = np.where(left, 0.0, dy * (col + 1 - xm))
+    right = np.where(left, dy, dy * (xm - col))
+    cc = np.clip(col - c0, 0, None)
+    flat = (row - r0) * width
+    acc = np.bincount(flat + cc, here, minlength=(r1 - r0) * width) \
+        + np.bincount(flat + np.where(left, 0, np.minimum(cc + 1, width - 1)), right, minlength=(r1 - r0) * width)
+    share = np.cumsum(acc.reshape(r1 - r0, width), axis=1)[:, : c1 - c0]
+    share[np.abs(share) < 1e-9] = 0.0                                # the running sum's rounding
+    out[r0:r1, c0:c1] = np.clip(share, 0.0, 1.0)
+    return out
 
 
 def site_layers(scene: Scene, P: np.ndarray, Hc: np.ndarray, size: tuple[int, int], cover, srgb: bool,
