@@ -12,8 +12,16 @@ is checked against what makes one suspect, each measured as a number with a stat
   face traced with the end, two members taken for one);
 - holes that look like texture: a hole whose own boundary has little edge support;
 - a face that is a small part of a larger similar region: its looks hardly differ from those of
-  the ground round it;
-- the face at the border: its outline runs along the image frame.
+  the ground round it, or what surrounds it does not look like the ground at the photo's edges
+  (the heartwood of a log, a mark on a face);
+- an opening filled: a large region deep inside the face looks like the ground round it and not
+  like the face's own outer band (a tube's bore);
+- the member going on beyond the outline: along a stretch of it what lies just outside does not
+  look like the ground (another part of the member, a side face, a shadow);
+- the face at the border: its outline runs along the image frame;
+- credible neighbours: other candidate regions on strong edges that overlap the face or lie
+  beside it and go on beyond it (the member's other leg past a patch of mill scale, the rest of
+  a bore's rim): the face may be a part of the member, or the member a part of the face.
 
 The confidence is the product of one factor per criterion, each 1 where the criterion is
 comfortably met and falling to 0 at its threshold's far side; a trace needs review where the
@@ -29,22 +37,32 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .contour import Trace
-from .segment import Segmentation
+from .segment import GROUND_LIKE, Segmentation, nearer_model
 
 __all__ = ["TraceCheck", "check_trace", "THRESHOLDS", "REVIEW_BELOW"]
 
 #: Each criterion's threshold (past it the trace needs review) and the value at which it is
 #: comfortably met (its factor 1), in the criterion's own units.
 THRESHOLDS = {
-    "edge_support": (0.55, 0.85),          # share of the boundary on a clean step
+    "edge_support": (0.8, 0.95),           # share of the boundary on a clean step
     "score_gap": (0.35, 1.2),              # best candidate's score minus the runner-up's
     "inner_edges": (1.0, 0.6),             # smoothed inner edges' strength over the outline's
-    "hole_support": (0.5, 0.8),            # each hole's share on a clean step
+    "hole_support": (0.65, 0.85),            # each hole's share on a clean step
     "distinct": (0.45, 0.75),              # 1 - overlap of the face's and the ground's looks
     "border": (0.005, 0.0),                # share of the outline on the image frame
+    "surround": (0.35, 0.6),               # the ring round the face: looks in common with the photo's edges
+    "inside_ground": (0.05, 0.01),         # largest ground-like region inside the face, share of its area
+    "outside": (0.12, 0.03),               # share of the outline whose outer side does not look like ground
+    "neighbours": (0.25, 0.05),            # area of credible regions overlapping or beside the face, share of it
 }
+# A candidate region counts as a credible neighbour with this much edge support (and not
+# looking like the ground), within this many working pixels of the face.
+_NEIGHBOUR_EDGE = 0.6
+_NEIGHBOUR_REACH = 5
+# How far outside the outline its outer side is looked at [px of the working copy].
+_OUT_WORKING = 6.0
 #: A trace whose confidence is below this needs review.
-REVIEW_BELOW = 0.5
+REVIEW_BELOW = 0.4
 
 
 @dataclass(frozen=True)
@@ -112,9 +130,21 @@ def check_trace(seg: Segmentation, trace: Trace) -> TraceCheck:
         hs = float(prof.clean.mean())
         judge("hole_support", hs, f"hole {k} looks like texture ({100 * hs:.0f} % of its edge on a clean step): a "
                                   "stain, check or knot may have been taken for an opening")
+    surround, inside = _ground_tests(seg)
+    judge("surround", surround, "what surrounds the face looks unlike the ground at the photo's edges: the face may "
+                                "be a part of a larger object (heartwood of a log, a mark on a face, one leg)")
+    judge("inside_ground", inside, f"a region inside the face ({100 * inside:.0f} % of it) looks like the ground "
+                                   "round it: an opening (a tube's bore) may have been filled")
+    beyond = _outside_not_ground(seg, trace)
+    judge("outside", beyond, f"along {100 * beyond:.0f} % of the outline what lies outside it does not look like the "
+                             "ground: the member may go on there (another part of it, a side face), or a shadow lies "
+                             "beside it")
     distinct = seg.chosen.criteria["distinct"]
     judge("distinct", distinct, "the face hardly differs from the ground round it: it may be a part of a larger "
                                 "similar region")
+    near = _neighbours(seg)
+    judge("neighbours", near, f"other regions on strong edges overlap or adjoin the face ({100 * near:.0f} % of its "
+                              "area beyond it): the face may be one part of the member, or take in a part of another")
     border = _on_frame(trace, seg.shape)
     judge("border", border, f"the face reaches the image border ({100 * border:.1f} % of its outline): it may be "
                             "cut off")
@@ -123,6 +153,91 @@ def check_trace(seg: Segmentation, trace: Trace) -> TraceCheck:
     if needs and not reasons:
         reasons.append(f"low confidence ({confidence:.2f}) from several criteria near their limits")
     return TraceCheck(confidence=confidence, needs_review=needs, reasons=tuple(reasons), measures=measures)
+
+
+def _outside_not_ground(seg: Segmentation, trace: Trace) -> float:
+    """The share of the outer outline (its normals, evened over about 15 of them) where the
+    photo a little outside the edge (6 working pixels out) has a look that is rare in the
+    photo's border strip, the ground."""
+    import cv2
+
+    prof = trace.profiles[0]
+    if prof.normals is None or not len(prof.points):
+        return 0.0
+    app = seg.appearance
+    h, w = app.shape
+    refs = seg.references if seg.references is not None else np.zeros((h, w), bool)
+    b = max(2, int(round(0.03 * min(h, w))))
+    strip = np.zeros((h, w), bool)
+    strip[:b] = strip[-b:] = True
+    strip[:, :b] = strip[:, -b:] = True
+    strip &= ~refs & ~seg.chosen.mask
+    if not strip.any():
+        return 0.0
+    share = np.bincount(app.codes[strip], minlength=app.n_looks) / float(strip.sum())
+    rare = share < 0.25 / app.n_looks
+    H, W = seg.shape
+    out = prof.points + prof.normals * (_OUT_WORKING * seg.working_step)
+    cx = np.clip(np.round((out[:, 0] + 0.5) * w / W - 0.5).astype(int), 0, w - 1)
+    cy = np.clip(np.round((out[:, 1] + 0.5) * h / H - 0.5).astype(int), 0, h - 1)
+    flags = rare[app.codes[cy, cx]].astype(np.float32) * ~refs[cy, cx]
+    n = len(flags)
+    k = np.ones(min(n, 15), np.float32) / min(n, 15)
+    even = np.convolve(np.concatenate([flags[-len(k):], flags, flags[:len(k)]]), k, mode="same")[len(k):-len(k)]
+    return float((even > 0.5).mean())
+
+
+def _ground_tests(seg: Segmentation) -> tuple[float, float]:
+    """Two comparisons that a right trace passes, on the working copy's colour and texture:
+
+    - surround: the ring round the face (3 to 10 px out) shares the looks of the photo's border
+      strip, the ground (palette histograms, their common share);
+    - inside: no large region deep inside the face looks more like that ring than like the
+      face's outer band (2 to 6 px in), by Gaussian models of colour and texture: an opening
+      taken for face shows the ground.
+    """
+    import cv2
+
+    app = seg.appearance
+    region = seg.chosen.mask
+    refs = seg.references if seg.references is not None else np.zeros(region.shape, bool)
+    h, w = region.shape
+    K = app.n_looks
+    k3 = np.ones((3, 3), np.uint8)
+    m8 = region.astype(np.uint8)
+    ring = (cv2.dilate(m8, k3, iterations=10) > 0) & ~(cv2.dilate(m8, k3, iterations=3) > 0) & ~refs
+    b = max(2, int(round(0.03 * min(h, w))))
+    strip = np.zeros((h, w), bool)
+    strip[:b] = strip[-b:] = True
+    strip[:, :b] = strip[:, -b:] = True
+    strip &= ~refs & ~region
+    if not ring.any():
+        return 1.0, 0.0, 0.0
+    h_ring = np.bincount(app.codes[ring], minlength=K) / float(ring.sum())
+    h_strip = np.bincount(app.codes[strip], minlength=K) / max(float(strip.sum()), 1.0)
+    surround = float(np.minimum(h_ring, h_strip).sum()) if strip.any() else 1.0
+    feats = np.dstack([app.lab, app.texture[..., None]]).astype(np.float32)
+    solid = _fill(region)
+    s8 = solid.astype(np.uint8)
+    wall = region & (cv2.erode(m8, k3, iterations=2) > 0) & ~(cv2.erode(m8, k3, iterations=6) > 0)
+    deep = (cv2.erode(s8, k3, iterations=8) > 0) & region            # holes are no face: left out
+    inside = 0.0
+    if wall.sum() >= 20 and deep.sum() >= 20:
+        nearer = nearer_model(feats, deep, ring, wall)
+        n, labels, stats, _ = cv2.connectedComponentsWithStats(nearer.astype(np.uint8), connectivity=4)
+        if n > 1:
+            inside = float(stats[1:, cv2.CC_STAT_AREA].max()) / max(float(solid.sum()), 1.0)
+    return surround, inside
+
+
+def _fill(region: np.ndarray) -> np.ndarray:
+    """The region with every hole filled."""
+    import cv2
+
+    inv = np.pad(~region, 1, constant_values=True).astype(np.uint8)
+    n, labels = cv2.connectedComponents(inv, connectivity=4)
+    outside = labels == labels[0, 0]
+    return ~outside[1:-1, 1:-1]
 
 
 def _inner_edges(seg: Segmentation) -> float:
@@ -149,6 +264,36 @@ def _inner_edges(seg: Segmentation) -> float:
         return 0.0                                  # a thin wall: no inside far from its edges
     on = float(np.median(edge[boundary]))
     return float(np.percentile(edge[inner], 98)) / max(on, 1e-6)
+
+
+def _neighbours(seg: Segmentation) -> float:
+    """The largest area, as a share of the face's, that a credible other candidate (edge
+    support at least ``_NEIGHBOUR_EDGE``, not ground-like) overlapping the face or within
+    ``_NEIGHBOUR_REACH`` working pixels of it has beyond 2 px round the face; candidates
+    mostly in the face's openings, and those holding the whole face, left out."""
+    import cv2
+
+    face = seg.chosen.mask
+    n = float(face.sum())
+    if n == 0:
+        return 0.0
+    f8 = face.astype(np.uint8)
+    k = 2 * _NEIGHBOUR_REACH + 1
+    reach = cv2.dilate(f8, np.ones((k, k), np.uint8)).astype(bool)
+    near = cv2.dilate(f8, np.ones((5, 5), np.uint8)).astype(bool)
+    solid = _fill(face)
+    best = 0.0
+    for c in seg.candidates[1:]:
+        if (c.criteria["edge"] < _NEIGHBOUR_EDGE or c.criteria["ground_like"] >= GROUND_LIKE
+                or c.cut_off or c.reference is not None or not (c.mask & reach).any()):
+            continue
+        m = float(c.mask.sum())
+        # Not what lies in the face's openings (a bore's inner wall), nor a version of the face
+        # with more round it (those were weighed when the face was chosen).
+        if (c.mask & solid).sum() >= 0.5 * m or (_fill(c.mask) & face).sum() >= 0.9 * n:
+            continue
+        best = max(best, float((c.mask & ~near).sum()) / n)
+    return best
 
 
 def _on_frame(trace: Trace, shape: tuple[int, int]) -> float:

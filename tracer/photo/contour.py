@@ -89,6 +89,8 @@ class EdgeProfiles:
         Grey light of the member's and the ground's side.
     level_error : ndarray (N,)
         How far the errors of the two levels' estimates move the crossing [px] (standard).
+    normals : ndarray (N, 2)
+        The outward unit normals [px] (away from the member).
     """
 
     points: np.ndarray
@@ -100,6 +102,7 @@ class EdgeProfiles:
     level_in: np.ndarray
     level_out: np.ndarray
     level_error: np.ndarray
+    normals: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -341,7 +344,8 @@ def _profiles(pts: np.ndarray, normals: np.ndarray, found: dict) -> EdgeProfiles
     offset = _fill_gaps(found["offset"], found["clean"])
     return EdgeProfiles(points=pts + offset[:, None] * normals, clean=found["clean"], offset=offset,
                         slope=found["slope"], noise=found["noise"], contrast=found["contrast"],
-                        level_in=found["level_in"], level_out=found["level_out"], level_error=found["level_error"])
+                        level_in=found["level_in"], level_out=found["level_out"], level_error=found["level_error"],
+                        normals=normals)
 
 
 def _running(g: np.ndarray, win: int, op, *, back: bool) -> np.ndarray:

@@ -181,7 +181,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     if plane.record["method"] == "pixels":        # no scale yet: texture as a share of the photo
         texture_px = max(2.0, 0.002 * float(np.hypot(*photo.shape)))
     smoothing = max(1.0, 0.25 * texture_px)
-    bark = None
+    bark = trace_ = None
     if trace is not None:
         seg = None
         drawn = parse_trace(trace, "trace")
@@ -190,13 +190,16 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
             return hand_trace(drawn["points"], drawn["holes"], plane_, allowance_px=_HAND_PX)
     else:
         seg = segment_member(photo, texture_px=texture_px, hints=hints, keep_out=plane.keep_out)
+        trace_ = trace_boundary(seg, photo, plane, smoothing_px=smoothing)
         bark = find_bark(seg, photo)
         if under_bark and bark.seen:
             seg = replace(seg, mask=bark.wood)
+            trace_ = None
 
         def retrace(plane_: PlaneMap) -> Trace:
             return trace_boundary(seg, photo, plane_, smoothing_px=smoothing)
-    trace_ = retrace(plane)
+    if trace_ is None:
+        trace_ = retrace(plane)
     if plane.record["method"] == "ruler":
         # The scale where the member lies along the ruler (its period changes under perspective).
         plane = map_from_ruler(reading, pitch_mm, at_px=trace_.rings_px[0].mean(axis=0), max_tilt=max_tilt,

@@ -37,16 +37,22 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["Appearance", "appearance", "region_costs", "min_cut", "grow_region", "first_guess", "PALETTE_SIZE",
-           "CHROMA_WEIGHT"]
+           "CHROMA_WEIGHT", "pattern_features"]
 
 #: Looks in the palette (k-means clusters of colour and texture).
 PALETTE_SIZE = 24
 # Pixels sampled to fit the palette.
 _PALETTE_SAMPLE = 12_000
-# Weights of a*, b* and the texture against L* in the palette's distance (a hue difference
-# tells materials apart more surely than a lightness difference, which shading also makes).
+# Weight of a* and b* against L* in the colour palette's distance (a hue difference tells
+# materials apart more surely than a lightness difference, which shading also makes).
 CHROMA_WEIGHT = 1.5
 _TEXTURE_WEIGHT = 1.0
+# Scales of the pattern's chromaticity (a share, 0 to 1) and log-luminance spread.
+_CHROMATICITY = 100.0
+_LOG_TEXTURE = 50.0
+# The wider texture window [px of the working copy] and the weight of the busyness it measures.
+_BUSY_SIGMA = 3.0
+_BUSY_WEIGHT = 0.0
 # Pseudo-count of each palette entry in a region model (an unseen look is unlikely, not impossible).
 _PRIOR_COUNT = 0.5
 # Weight of the neighbour terms against the models' costs [nats].
@@ -68,7 +74,7 @@ class Appearance:
     codes : ndarray (h, w) intp or None
         The palette entry each pixel looks most like.
     palette : ndarray (K, 4) float32 or None
-        The entries' centres: L*, weighted a*, weighted b*, weighted texture.
+        The entries' centres: L*, weighted a*, weighted b*, texture.
     right, down : ndarray (h, w) float32
         Neighbour weights to the pixel on the right and below, exp(-β |ΔLab|²) with β the
         inverse of twice the mean |ΔLab|² [3]; 0 past the last column or row.
@@ -78,20 +84,24 @@ class Appearance:
     """
 
     lab: np.ndarray
-    texture: np.ndarray
-    codes: np.ndarray
-    palette: np.ndarray
+    texture: np.ndarray | None
+    codes: np.ndarray | None
+    palette: np.ndarray | None
     right: np.ndarray
     down: np.ndarray
-    edge: np.ndarray
+    edge: np.ndarray | None
 
     @property
     def shape(self) -> tuple[int, int]:
         return self.lab.shape[:2]
 
+    @property
+    def n_looks(self) -> int:
+        return len(self.palette)
 
-def appearance(light_bgr: np.ndarray, *, texture_px: float = 1.2, palette: np.ndarray | None = None,
-               usable: np.ndarray | None = None, seed: int = 0, looks: bool = True) -> Appearance:
+
+def appearance(light_bgr: np.ndarray, *, texture_px: float = 1.2, usable: np.ndarray | None = None, seed: int = 0,
+               looks: bool = True) -> Appearance:
     """The appearance of `light_bgr` (h, w, 3), linear light 0..1 in BGR order.
 
     Parameters
@@ -100,22 +110,20 @@ def appearance(light_bgr: np.ndarray, *, texture_px: float = 1.2, palette: np.nd
         The (reduced) photo in linear light.
     texture_px : float
         Scale of the texture window [px of this copy] (a Gaussian σ).
-    palette : ndarray, optional
-        Reuse this palette (from a coarser copy of the same photo) instead of fitting one.
     usable : ndarray (h, w) bool, optional
         Pixels the palette is fitted on (scale references left out).
     seed : int
         Seed of the palette's k-means (fixed: the same photo always gives the same palette).
     looks : bool
-        Fit or apply the palette; without it ``codes`` and ``palette`` are None and ``texture``
-        is not computed (enough for cuts between local colour models, :func:`min_cut`).
+        Fit and apply the palette; without it the codes and palette are None and texture and
+        edges are not computed (enough for cuts between local models, :func:`min_cut`).
     """
     import cv2
 
     light = np.ascontiguousarray(light_bgr, dtype=np.float32)
     lab = cv2.cvtColor(light, cv2.COLOR_LBGR2Lab)
     L = lab[..., 0]
-    texture = codes = None
+    texture = codes = palette = edge = None
     if looks:
         s = max(0.8, float(texture_px))
         mean = cv2.GaussianBlur(L, (0, 0), s)
@@ -125,9 +133,12 @@ def appearance(light_bgr: np.ndarray, *, texture_px: float = 1.2, palette: np.nd
         feats[..., 1:3] = lab[..., 1:] * CHROMA_WEIGHT
         feats[..., 3] = texture * _TEXTURE_WEIGHT
         flat = feats.reshape(-1, 4)
-        if palette is None:
-            palette = _fit_palette(flat if usable is None else flat[usable.ravel()], seed)
+        palette = _fit_palette(flat if usable is None else flat[usable.ravel()], seed, PALETTE_SIZE)
         codes = _nearest(flat, palette).reshape(lab.shape[:2])
+        smooth = cv2.GaussianBlur(lab, (0, 0), 1.0)                # noise and JPEG blocks out
+        gx = cv2.Sobel(smooth, cv2.CV_32F, 1, 0)
+        gy = cv2.Sobel(smooth, cv2.CV_32F, 0, 1)
+        edge = np.sqrt(np.square(gx).sum(axis=2) + np.square(gy).sum(axis=2)) / 8.0
     dr = np.zeros(L.shape, np.float32)
     dd = np.zeros(L.shape, np.float32)
     dr[:, :-1] = np.square(lab[:, 1:] - lab[:, :-1]).sum(axis=2)
@@ -138,12 +149,6 @@ def appearance(light_bgr: np.ndarray, *, texture_px: float = 1.2, palette: np.nd
     down = np.exp(-beta * dd).astype(np.float32)
     right[:, -1] = 0.0
     down[-1, :] = 0.0
-    edge = None
-    if looks:
-        smooth = cv2.GaussianBlur(lab, (0, 0), 1.0)                # noise and JPEG blocks out
-        gx = cv2.Sobel(smooth, cv2.CV_32F, 1, 0)
-        gy = cv2.Sobel(smooth, cv2.CV_32F, 0, 1)
-        edge = np.sqrt(np.square(gx).sum(axis=2) + np.square(gy).sum(axis=2)) / 8.0
     return Appearance(lab=lab, texture=texture, codes=codes, palette=palette, right=right, down=down, edge=edge)
 
 
@@ -151,7 +156,7 @@ def region_costs(app: Appearance, member: np.ndarray, ground: np.ndarray) -> tup
     """Each pixel's cost [nats] of being member and of being ground, -log of its look's share
     in the member's and the ground's model, the models made from the weights `member` and
     `ground` (h, w) (bool or float)."""
-    K = len(app.palette)
+    K = app.n_looks
     codes = app.codes.ravel()
     pm = np.bincount(codes, weights=np.asarray(member, np.float64).ravel(), minlength=K) + _PRIOR_COUNT
     pg = np.bincount(codes, weights=np.asarray(ground, np.float64).ravel(), minlength=K) + _PRIOR_COUNT
@@ -189,10 +194,14 @@ def min_cut(app: Appearance, cost_member: np.ndarray, cost_ground: np.ndarray, *
 
 
 def grow_region(app: Appearance, member: np.ndarray, ground: np.ndarray, *, hard_member: np.ndarray | None = None,
-                hard_ground: np.ndarray | None = None, rounds: int = 2,
-                smoothness: float = SMOOTHNESS) -> np.ndarray:
+                hard_ground: np.ndarray | None = None, rounds: int = 2, smoothness: float = SMOOTHNESS,
+                excess: float | None = None) -> np.ndarray:
     """Models from the first guesses `member` and `ground`, a cut, new models from the cut, and
-    so on for `rounds` cuts [3]; the last cut (h, w bool)."""
+    so on for `rounds` cuts [3]; the last cut (h, w bool).
+
+    With `excess`, each new member model keeps only the looks commoner in the cut than in the
+    rest (:func:`first_guess`), so that a patch of ground taken in once is not learnt as member.
+    """
     cut = None
     for _ in range(rounds):
         cm, cg = region_costs(app, member, ground)
@@ -200,6 +209,8 @@ def grow_region(app: Appearance, member: np.ndarray, ground: np.ndarray, *, hard
         if not cut.any() or cut.all():
             break
         member, ground = cut, ~cut
+        if excess is not None:
+            member = first_guess(app, cut, ~cut, excess=excess)
     return cut
 
 
@@ -213,7 +224,7 @@ def first_guess(app: Appearance, inside: np.ndarray, ground: np.ndarray, *, exce
     the ground (GrabCut [3] avoids it with a box whose outside is held to the ground; a member in
     view has no such box).
     """
-    K = len(app.palette)
+    K = app.n_looks
     p_in = np.bincount(app.codes[inside], minlength=K) / max(int(inside.sum()), 1)
     p_ground = np.bincount(app.codes[ground], minlength=K) / max(int(ground.sum()), 1)
     share = np.clip(1.0 - excess * p_ground / np.maximum(p_in, 1e-12), 0.0, 1.0)
@@ -225,14 +236,32 @@ _RIGHT = np.array([[0, 0, 0], [0, 0, 1], [0, 0, 0]])
 _DOWN = np.array([[0, 0, 0], [0, 0, 0], [0, 1, 0]])
 
 
-def _fit_palette(feats: np.ndarray, seed: int) -> np.ndarray:
+def pattern_features(light: np.ndarray, s: float) -> np.ndarray:
+    """What shade leaves alone, per pixel: the light's chromaticity (each channel's share of the
+    sum, two of them) and the spread of log luminance over a σ = `s` and a σ = 3 px window,
+    scaled to units of about the colour palette's."""
+    import cv2
+
+    total = light.sum(axis=2) + 0.02
+    # The floor keeps the sensor noise of dark pixels from reading as texture in the logarithm.
+    y = np.log(light @ np.array([0.0722, 0.7152, 0.2126], np.float32) + 0.02)
+    out = np.empty(light.shape[:2] + (4,), np.float32)
+    out[..., 0] = _CHROMATICITY * light[..., 0] / total
+    out[..., 1] = _CHROMATICITY * light[..., 2] / total
+    for i, sigma in ((2, s), (3, _BUSY_SIGMA)):
+        m = cv2.GaussianBlur(y, (0, 0), sigma)
+        out[..., i] = _LOG_TEXTURE * np.sqrt(np.maximum(cv2.GaussianBlur(y * y, (0, 0), sigma) - m * m, 0.0))
+    return out
+
+
+def _fit_palette(feats: np.ndarray, seed: int, size: int) -> np.ndarray:
     """k-means centres of a fixed random sample of the features (deterministic)."""
     import cv2
 
     rng = np.random.default_rng(seed)
     n = len(feats)
     sample = feats[rng.choice(n, size=min(n, _PALETTE_SAMPLE), replace=False)] if n > _PALETTE_SAMPLE else feats
-    k = min(PALETTE_SIZE, max(2, len(np.unique(sample.round(1), axis=0))))
+    k = min(size, max(2, len(np.unique(sample.round(1), axis=0))))
     cv2.setRNGSeed(seed)
     criteria = (cv2.TERM_CRITERIA_EPS + cv2.TERM_CRITERIA_MAX_ITER, 20, 0.2)
     _, _, centres = cv2.kmeans(np.ascontiguousarray(sample, np.float32), k, None, criteria, 1,

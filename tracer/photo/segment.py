@@ -41,8 +41,8 @@ from .lookalike import reference_kind
 from .regions import CHROMA_WEIGHT as _CHROMA
 from .regions import Appearance, appearance, first_guess, grow_region, min_cut, region_costs
 
-__all__ = ["Candidate", "Segmentation", "segment_member", "local_costs", "fill_holes", "SCORE_WEIGHTS", "WEAK_SCORE",
-           "CLOSE_SCORE"]
+__all__ = ["Candidate", "Segmentation", "segment_member", "local_costs", "fill_holes", "open_up", "nearer_model",
+           "SCORE_WEIGHTS", "WEAK_SCORE", "CLOSE_SCORE", "GROUND_LIKE"]
 
 #: Weights of the candidate criteria in the score (each criterion 0 to 1).
 SCORE_WEIGHTS = {"size": 1.0, "solidity": 0.5, "edge": 1.5, "distinct": 1.5, "centre": 0.5}
@@ -52,6 +52,13 @@ WEAK_SCORE = 2.6
 CLOSE_SCORE = 0.35
 # Pixels of the working copy.
 _WORK_PIXELS = 60_000
+# How far apart (pooled spreads) the ground's and the band's models must be to tell an opening:
+# the band is a mix (a thin wall's band takes in some of the bore), so its spread is wide.
+_OPENING_APART = 1.0
+# An opening is at least this share of the member's outline's area.
+_OPENING_SHARE = 0.03
+# Floor on a local model's feature variance.
+_MIN_VAR = 1.0
 # Window (Gaussian σ) of the texture measure on the working copy [px].
 _TEXTURE_SIGMA = 1.0
 # Finest step of the band cut [full-size px per pixel], and its step against the working copy's.
@@ -76,14 +83,18 @@ _CLASS_DE = 20.0
 # A candidate holds those inside its outline (they are parts of it) only if at least this share of
 # its boundary lies on strong edges.
 _HOLDER_EDGE = 0.4
+# A region whose edge support is this much above a larger one's round it is not held by it.
+_HELD_EDGE_GAP = 0.3
+# ... and round which the larger goes on along at most this share of its outline.
+_LEAK_SHARE = 0.3
 # A candidate inside a region that reaches the border is taken only if it is at least this share
 # of that region (a tube's wall in a dark field is; the pith of a log whose face is cut off is not).
 _MIN_SHARE_OF_HOLDER = 0.1
 # A region running off the photo along less than this share of the frame may be a member cut off.
 _CUT_OFF_FRAME = 0.2
-# A candidate that looks this much like the ground at the photo's edges (the share of its looks
-# in common with theirs) is ground seen through or beside something, never the member.
-_GROUND_LIKE = 0.6
+#: A candidate that looks this much like the ground at the photo's edges (the share of its looks
+#: in common with theirs) is ground seen through or beside something, never the member.
+GROUND_LIKE = 0.6
 # What a larger version of a region adds is ground if this much of its looks is the ground's round it.
 _GROUND_LIKE_EXTRA = 0.5
 # A candidate must be at least twice this thick somewhere [px of the working copy].
@@ -113,8 +124,8 @@ class Candidate:
     inside : int or None
         The index of the candidate whose outline holds this one (it is then part of it).
     source : str
-        ``"border"`` (a cut against the border's ground), ``"region"`` (a one-look region grown),
-        or ``"hint"``.
+        ``"border"`` (a cut against the border's ground), ``"level"`` (a side of one grey level),
+        ``"region"`` (a one-look region grown), or ``"hint"``.
     reference : str or None
         ``"checkerboard"`` or ``"ruler"`` where the region is a scale reference lying in view
         (:mod:`tracer.photo.lookalike`): never the member.
@@ -166,6 +177,8 @@ class Segmentation:
         Of the working copy.
     filled_holes : int
         Holes of the cut smaller than the texture size, filled.
+    references : ndarray (h, w) bool
+        The scale references (and transparent pixels) on the working copy.
     """
 
     mask: np.ndarray = field(repr=False)
@@ -179,6 +192,7 @@ class Segmentation:
     hints: Hints
     appearance: Appearance = field(repr=False)
     filled_holes: int = 0
+    references: np.ndarray | None = field(default=None, repr=False)
 
     def rings_px(self) -> list[np.ndarray]:
         """The mask's boundary rings in full-size pixels (x, y), outer first then holes, each
@@ -225,7 +239,27 @@ def segment_member(photo, *, texture_px: float, hints: Hints = Hints(), keep_out
         Nothing found; the member cut off by the border; a seed on the ground; or, unattended,
         no candidate clearly better than the rest (the message lists them).
     """
+    ctx = _context(photo, texture_px, keep_out, hints)
+    if hints.seeds:
+        cands = _seeded(ctx, hints)
+        chosen, runner = cands[0], None
+    else:
+        cands = _candidates(ctx, hints)
+        chosen, runner = _choose(ctx, cands, hints)
+        chosen = replace(chosen, mask=open_up(ctx, chosen.mask))
+    mask, fine_step, origin, filled = _refine(photo, ctx, chosen.mask, hints)
+    ordered = (chosen,) + tuple(c for c in cands if c is not chosen)
+    sx, sy = ctx.scale
+    return Segmentation(mask=mask, step=fine_step, origin=origin, shape=ctx.shape, candidates=ordered, chosen=chosen,
+                        runner_up=runner, working_step=float(math.sqrt(sx * sy)), hints=hints, appearance=ctx.app,
+                        filled_holes=filled, references=ctx.refs)
+
+
+def _context(photo, texture_px: float, keep_out, hints: Hints) -> "_Context":
+    """The working copy and everything the searches share."""
     import cv2
+
+    from .tone import LIGHT_OF_8BIT
 
     H, W = photo.shape
     hints.check(W, H)
@@ -233,8 +267,6 @@ def segment_member(photo, *, texture_px: float, hints: Hints = Hints(), keep_out
     w, h = max(16, round(W / step)), max(16, round(H / step))
     sx, sy = W / w, H / h
     small = cv2.resize(photo.color, (w, h), interpolation=cv2.INTER_AREA)
-    from .tone import LIGHT_OF_8BIT
-
     light = LIGHT_OF_8BIT[small]
     shading = _shading(light, _border_strip(h, w))
     light = light / shading[..., None]
@@ -250,22 +282,10 @@ def segment_member(photo, *, texture_px: float, hints: Hints = Hints(), keep_out
     # finest grain), over a window small enough that an edge's step spills little into it (a
     # wide window makes a band of "edge" looks along every outline, taken for the member).
     app = appearance(light, texture_px=_TEXTURE_SIGMA, usable=~refs)
-    scale = (sx, sy)
     strip = _border_strip(h, w) & ~refs
-    looks = np.bincount(app.codes[strip], minlength=len(app.palette)) / max(int(strip.sum()), 1)
-    ctx = _Context(app=app, refs=refs, scale=scale, shape=(H, W), texture_px=texture_px, shading=shading,
-                   gray=photo.levels, ground_looks=looks)
-    if hints.seeds:
-        cands = _seeded(ctx, hints)
-        chosen, runner = cands[0], None
-    else:
-        cands = _candidates(ctx, hints)
-        chosen, runner = _choose(ctx, cands, hints)
-    mask, fine_step, origin, filled = _refine(photo, ctx, chosen.mask, hints)
-    ordered = (chosen,) + tuple(c for c in cands if c is not chosen)
-    return Segmentation(mask=mask, step=fine_step, origin=origin, shape=(H, W), candidates=ordered, chosen=chosen,
-                        runner_up=runner, working_step=float(math.sqrt(sx * sy)), hints=hints, appearance=app,
-                        filled_holes=filled)
+    looks = np.bincount(app.codes[strip], minlength=app.n_looks) / max(int(strip.sum()), 1)
+    return _Context(app=app, refs=refs, scale=(sx, sy), shape=(H, W), texture_px=texture_px, shading=shading,
+                    gray=photo.levels, ground_looks=looks, features=_pattern(light))
 
 
 # ---------------------------------------------------------------------------------------------
@@ -279,6 +299,7 @@ class _Context:
     shading: np.ndarray
     gray: np.ndarray | None = None
     ground_looks: np.ndarray | None = None
+    features: np.ndarray | None = None
 
     def to_small(self, xy) -> np.ndarray:
         return (np.asarray(xy, float) + 0.5) / self.scale - 0.5
@@ -339,7 +360,7 @@ def _seeded(ctx: _Context, hints: Hints) -> list[Candidate]:
         pts = " and ".join(f"{x:g},{y:g}" for x, y in hints.seeds)
         raise MeasurementError(f"--seed {pts} fall on separate regions; give points on one member, or a --box "
                                "round it")
-    region = fill_holes(region, (2 * ctx.texture_px / ctx.scale[0]) ** 2)
+    region = open_up(ctx, fill_holes(region, (2 * ctx.texture_px / ctx.scale[0]) ** 2), keep=base)
     crit = _criteria(ctx, region)
     cand = _candidate(ctx, region, crit, "hint")
     if cand.cut_off:
@@ -381,6 +402,9 @@ def _candidates(ctx: _Context, hints: Hints) -> list[Candidate]:
         cut = grow_region(app, member0, ground0, hard_ground=hard_ground, rounds=3)
         for reg in _components(cut, min_area):
             add(fill_holes(reg, fill), "border")
+    # The plainest split too: one grey level (Otsu's) over the light, the member either side of it.
+    for reg in _threshold_regions(ctx, hard_ground, min_area):
+        add(fill_holes(reg, fill), "level")
     # Regions already well found (whole, on strong edges) need no one-look seed inside them.
     found = [c.mask for c in cands if not c.cut_off and c.criteria["edge"] >= 0.5]
     grow_seeds = not any(_clear(c) for c in cands)
@@ -411,7 +435,7 @@ def _candidates(ctx: _Context, hints: Hints) -> list[Candidate]:
         best = ids[np.argmax(stats[ids, cv2.CC_STAT_AREA])]
         if stats[best, cv2.CC_STAT_AREA] >= min_area:
             add(fill_holes(labels == best, fill), "region")
-    return _nest(_one_version_each(ctx, cands))
+    return _nest(ctx, _one_version_each(ctx, cands))
 
 
 def _one_version_each(ctx: _Context, cands: list[Candidate]) -> list[Candidate]:
@@ -444,7 +468,7 @@ def _looks_like_ring(ctx: _Context, part: np.ndarray, region: np.ndarray, outer:
     ring = (cv2.dilate(m8, k3, iterations=10) > 0) & ~(cv2.dilate(m8, k3, iterations=3) > 0) & ~ctx.refs
     if not ring.any() or not part.any():
         return 0.0
-    K = len(ctx.app.palette)
+    K = ctx.app.n_looks
     hm = np.bincount(ctx.app.codes[region], minlength=K) / max(float(region.sum()), 1.0)
     hr = np.bincount(ctx.app.codes[ring], minlength=K) / float(ring.sum())
     return float((hr > hm)[ctx.app.codes[part]].mean())
@@ -454,8 +478,39 @@ def _ground_like(ctx: _Context, region: np.ndarray) -> float:
     """The share of the region's looks in common with those of the ground at the photo's edges."""
     if ctx.ground_looks is None or not region.any():
         return 0.0
-    hr = np.bincount(ctx.app.codes[region], minlength=len(ctx.app.palette)) / float(region.sum())
+    hr = np.bincount(ctx.app.codes[region], minlength=ctx.app.n_looks) / float(region.sum())
     return float(np.minimum(hr, ctx.ground_looks).sum())
+
+
+def _threshold_regions(ctx: "_Context", hard_ground: np.ndarray, min_area: float) -> list[np.ndarray]:
+    """Regions of either side of Otsu's level [1]_ on the working copy's lightness, cleaned of
+    specks (an opening and a closing by a 3 x 3 square), that stay clear of the frame (and of what
+    the hints hold to the ground): the whole
+    answer where a member differs from its ground by lightness alone.
+
+    References
+    ----------
+    .. [1] N. Otsu, "A threshold selection method from gray-level histograms," *IEEE Trans.
+       Systems, Man, and Cybernetics*, vol. 9, no. 1, pp. 62-66, 1979.
+    """
+    import cv2
+
+    from .lookalike import otsu
+
+    L = cv2.GaussianBlur(ctx.app.lab[..., 0], (0, 0), 1.0)
+    vals = L[~hard_ground]
+    if not len(vals):
+        return []
+    t = otsu(vals, float(vals.min()), float(vals.max()))
+    k3 = np.ones((3, 3), np.uint8)
+    out = []
+    # Clear of the frame, of the outside of a box and of points on the ground.
+    held = cv2.dilate((hard_ground & ~ctx.refs).astype(np.uint8), k3).astype(bool)
+    for side in (L > t, L <= t):
+        m = cv2.morphologyEx((side & ~hard_ground).astype(np.uint8), cv2.MORPH_OPEN, k3)
+        m = cv2.morphologyEx(m, cv2.MORPH_CLOSE, k3).astype(bool) & ~hard_ground
+        out += [r for r in _components(m, min_area) if not (r & held).any()]
+    return out
 
 
 def _clear(c: Candidate) -> bool:
@@ -469,7 +524,7 @@ def _clear(c: Candidate) -> bool:
 def _choose(ctx: _Context, cands: list[Candidate], hints: Hints) -> tuple[Candidate, Candidate | None]:
     """The best whole candidate not inside another, and the best other one; refuse where it is
     weak or the other close."""
-    whole = [c for c in cands if not c.cut_off and c.inside is None and c.criteria["ground_like"] < _GROUND_LIKE]
+    whole = [c for c in cands if not c.cut_off and c.inside is None and c.criteria["ground_like"] < GROUND_LIKE]
     if not whole:
         if any(c.cut_off for c in cands):
             raise MeasurementError("the member is cut off by the image border; photograph the whole cut face with "
@@ -495,7 +550,7 @@ def _choose(ctx: _Context, cands: list[Candidate], hints: Hints) -> tuple[Candid
     # A region running off the photo, outlined by strong edges, that scores better, or of which
     # the best is a part: the member is cut off by the border.
     for c in cands:
-        if (c.cut_off and c.criteria["edge"] >= _HOLDER_EDGE and c.criteria["ground_like"] < _GROUND_LIKE
+        if (c.cut_off and c.criteria["edge"] >= _HOLDER_EDGE and c.criteria["ground_like"] < GROUND_LIKE
                 and (c.score > best.score or _part_of(ctx.app, best.mask, c.mask)) and not is_reference(c)):
             raise MeasurementError(f"the member is cut off by the image border (a region {c.describe()} runs off "
                                    "the photo); photograph the whole cut face with some ground around it, or give "
@@ -580,6 +635,67 @@ def _refine(photo, ctx: _Context, region: np.ndarray, hints: Hints) -> tuple[np.
 
 
 # ---------------------------------------------------------------------------------------------
+def _pattern(light: np.ndarray) -> np.ndarray:
+    """What shade leaves alone, per pixel of the working copy (see :func:`open_up`)."""
+    from .regions import pattern_features
+
+    return pattern_features(light, _TEXTURE_SIGMA)
+
+
+def open_up(ctx: "_Context", region: np.ndarray, *, keep: np.ndarray | None = None) -> np.ndarray:
+    """The region with its openings made holes: the parts deep inside it (away from its outline)
+    whose pattern, what shade leaves alone, is the ground's round it and not its own outer
+    band's: a tube's or box's bore shows the ground, darkened, and its look, learnt as member by
+    a cut that took the bore in, is no proof against it. Heartwood, a paint mark or rust are
+    the member's own and look like its band more than like the ground."""
+    import cv2
+
+    r8 = region.astype(np.uint8)
+    k3 = np.ones((3, 3), np.uint8)
+    solid = fill_holes(region, np.inf).astype(np.uint8)
+    # The band clear of the outline's blend of face and ground; the ring likewise outside.
+    band = (cv2.erode(r8, k3, iterations=2) > 0) & ~(cv2.erode(r8, k3, iterations=6) > 0)
+    ring = (cv2.dilate(solid, k3, iterations=10) > 0) & ~(cv2.dilate(solid, k3, iterations=3) > 0) & ~ctx.refs
+    deep = region & (cv2.erode(solid, k3, iterations=6) > 0)
+    if band.sum() < 20 or ring.sum() < 20 or deep.sum() < 20:
+        return region
+    lab = ctx.app.lab
+    # Like the ground round it in pattern and in hue, and no lighter than it (a bore is in shade;
+    # a light face with the ground's grain is no opening).
+    ground_like = (nearer_model(ctx.features, deep, ring, band, apart=_OPENING_APART)
+                   & nearer_model(lab[..., 1:], deep, ring, band, apart=_OPENING_APART))
+    L_ring = lab[..., 0][ring]
+    ground_like &= lab[..., 0] <= float(L_ring.mean() + 0.5 * L_ring.std())
+    if keep is not None:
+        ground_like &= ~keep
+    n, labels, stats, _ = cv2.connectedComponentsWithStats(ground_like.astype(np.uint8), connectivity=4)
+    big = np.zeros(n, bool)
+    big[1:] = stats[1:, cv2.CC_STAT_AREA] >= _OPENING_SHARE * float(solid.sum())
+    if not big.any():
+        return region
+    # The opening reaches out to the band's inner edge (its rim pixels were outside `deep`).
+    opening = cv2.dilate(big[labels].astype(np.uint8), k3, iterations=6).astype(bool) & region & ~band
+    return region & ~opening
+
+
+def nearer_model(feats: np.ndarray, where: np.ndarray, a: np.ndarray, b: np.ndarray, *,
+                 apart: float = 3.0) -> np.ndarray:
+    """Pixels of `where` nearer (Gaussian log-likelihood, independent features) to region `a`'s
+    features than to region `b`'s, where the two differ clearly (means `apart` pooled spreads
+    apart)."""
+    fa, fb = feats[a], feats[b]
+    ma, mb = fa.mean(axis=0), fb.mean(axis=0)
+    va, vb = np.maximum(fa.var(axis=0), _MIN_VAR), np.maximum(fb.var(axis=0), _MIN_VAR)
+    out = np.zeros(where.shape, bool)
+    if float(np.sqrt(np.sum((ma - mb) ** 2 / (0.5 * (va + vb))))) < apart:
+        return out
+    x = feats[where]
+    da = 0.5 * (((x - ma) ** 2) / va + np.log(va)).sum(axis=1)
+    db = 0.5 * (((x - mb) ** 2) / vb + np.log(vb)).sum(axis=1)
+    out[where] = da < db
+    return out
+
+
 def local_costs(lab: np.ndarray, inner: np.ndarray, ring: np.ndarray, reach: float) -> tuple[np.ndarray, np.ndarray]:
     """Each pixel's cost of being member and ground under local colour models: Gaussians in
     CIELAB about the member's and the ground's mean colour near it (normalised convolution of
@@ -627,7 +743,7 @@ def _criteria(ctx: _Context, region: np.ndarray) -> dict:
     strong = 2.5 * max(e_out, 0.5)
     ridge = cv2.dilate(app.edge, np.ones((5, 5), np.uint8))
     edge = float(np.mean(ridge[boundary] > strong)) if boundary.any() else 0.0
-    K = len(app.palette)
+    K = app.n_looks
     if ring.any():
         hi = np.bincount(app.codes[region], minlength=K) + 0.5
         ho = np.bincount(app.codes[ring], minlength=K) + 0.5
@@ -670,7 +786,7 @@ def _reference(ctx: _Context, region: np.ndarray) -> str | None:
     return reference_kind(gray, mask)
 
 
-def _nest(cands: list[Candidate]) -> list[Candidate]:
+def _nest(ctx: _Context, cands: list[Candidate]) -> list[Candidate]:
     """Mark each candidate that lies within another whole candidate's outline (it is part of
     it), or that is a small part of a region reaching the border (it is no member alone)."""
     filled = [fill_holes(c.mask, np.inf) for c in cands]
@@ -679,11 +795,11 @@ def _nest(cands: list[Candidate]) -> list[Candidate]:
     for i, c in enumerate(cands):
         area = int(c.mask.sum())
         holders = [j for j in range(len(cands)) if j != i and sizes[j] > area
-                   and (filled[j] & c.mask).sum() >= 0.9 * area]
+                   and (filled[j] & c.mask).sum() >= 0.9 * area and not _leaky_version(ctx, c, cands[j], filled[j])]
         # Only a credible member holds another: whole, and mostly outlined by strong edges (not
         # a loose region of dark ground round a bright tube wall).
         whole = [j for j in holders if not cands[j].cut_off and cands[j].criteria["edge"] >= _HOLDER_EDGE
-                 and cands[j].reference is None]
+                 and cands[j].criteria["ground_like"] < GROUND_LIKE and cands[j].reference is None]
         if whole:
             out.append(replace(c, inside=min(whole, key=lambda j: sizes[j])))
         elif any(sizes[i] < _MIN_SHARE_OF_HOLDER * sizes[j] for j in holders):
@@ -691,6 +807,31 @@ def _nest(cands: list[Candidate]) -> list[Candidate]:
         else:
             out.append(c)
     return out
+
+
+def _leaky_version(ctx: _Context, c: Candidate, holder: Candidate, filled: np.ndarray) -> bool:
+    """Whether `holder` is `c` with leaks into the ground rather than a larger object holding it:
+    `c` sits on clearly stronger edges and scores better, the holder goes on beyond it (3 px
+    out) along little of its outline (a tube's wall round its bore, or a log round its heartwood,
+    goes all the way round), and what it adds looks like the ground round it more than like `c`
+    (another part of the member does not)."""
+    import cv2
+
+    if not (c.criteria["edge"] - holder.criteria["edge"] >= _HELD_EDGE_GAP and c.score > holder.score):
+        return False
+    m = c.mask.astype(np.uint8)
+    near = cv2.dilate(m, np.ones((5, 5), np.uint8)) > 0
+    ring = (cv2.dilate(m, np.ones((7, 7), np.uint8)) > 0) & ~near
+    if not ring.any() or float((ring & filled).sum()) > _LEAK_SHARE * float(ring.sum()):
+        return False
+    # What the holder adds looks like the ground round the holder, not like `c`.
+    extra = filled & ~near
+    h8 = filled.astype(np.uint8)
+    k3 = np.ones((3, 3), np.uint8)
+    ground = (cv2.dilate(h8, k3, iterations=10) > 0) & ~(cv2.dilate(h8, k3, iterations=3) > 0) & ~ctx.refs
+    if extra.sum() < 20 or ground.sum() < 20:
+        return True
+    return float(nearer_model(ctx.features, extra, ground, c.mask, apart=1.0)[extra].mean()) >= 0.5
 
 
 def _look_classes(app: Appearance) -> np.ndarray:
@@ -758,7 +899,7 @@ def _part_of(app: Appearance, a: np.ndarray, b: np.ndarray) -> bool:
     grown = cv2.dilate(b.astype(np.uint8), np.ones((5, 5), np.uint8)).astype(bool)
     if float((a & grown).sum()) < 0.5 * float(a.sum()):
         return False
-    K = len(app.palette)
+    K = app.n_looks
     ha = np.bincount(app.codes[a], minlength=K) / max(int(a.sum()), 1)
     hb = np.bincount(app.codes[b], minlength=K) / max(int(b.sum()), 1)
     return float(np.minimum(ha, hb).sum()) >= 0.5
