@@ -26,7 +26,7 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -70,6 +70,16 @@ class RulerReading:
         The first longer marks fall every this many ticks (None: not seen).
     longest_every : int or None
         The longest marks (centimetres, inches) fall every this many ticks.
+    levels : tuple of int
+        Every level of longer marks seen: each falls every this many ticks.
+    located_every : int
+        The marks located and fitted fall every this many numbered ticks: 1 where each mark was
+        located; more where finer marks, seen between them but too blurred to locate one by one,
+        were counted in, or where a coarser graduation was read (see `read_every`).
+    read_every : int
+        Each mark numbered after :meth:`renumbered` spans this many ticks of the finest
+        graduation: 1 where the finest marks were seen; more where they were lost in blur and a
+        coarser graduation was identified by its longer marks.
     """
 
     origin: np.ndarray
@@ -84,6 +94,9 @@ class RulerReading:
     strip: np.ndarray
     long_every: int | None
     longest_every: int | None = None
+    levels: tuple[int, ...] = ()
+    located_every: int = 1
+    read_every: int = 1
 
     @property
     def ticks_px(self) -> np.ndarray:
@@ -113,6 +126,19 @@ class RulerReading:
             g[i] = (period(self.params + d) - period(self.params - d)) / (2 * d[i])
         return T, float(math.sqrt(max(g @ self.cov @ g, 0.0)))
 
+    def renumbered(self, m: int) -> "RulerReading":
+        """The same reading with each tick numbered as `m` ticks of a finer graduation: the fit's
+        parameters and covariance carried over exactly (k = k'/m in s(k)), so the period's
+        relative uncertainty is the coarse fit's."""
+        if m == 1:
+            return self
+        f = np.array([1.0, m, m])
+        return replace(self, k=self.k * m, params=self.params / f, cov=self.cov / np.outer(f, f),
+                       long_every=None if self.long_every is None else self.long_every * m,
+                       longest_every=None if self.longest_every is None else self.longest_every * m,
+                       levels=tuple(v * m for v in self.levels), located_every=self.located_every * m,
+                       read_every=self.read_every * m)
+
     @property
     def extent(self) -> tuple[float, float]:
         """The first and last tick found [px along]."""
@@ -126,7 +152,8 @@ class RulerReading:
         ends = self.origin + np.outer([s0, s1], self.direction) + t * self.normal   # along the marks
         return {"axis_px": ends.round(2).tolist(), "ticks_found": int(len(self.s)),
                 "period_change_percent": 100.0 * (T1 / T0 - 1.0), "fit_residual_px_rms": self.residual_px,
-                "long_marks_every": self.long_every, "longest_marks_every": self.longest_every}
+                "long_marks_every": self.long_every, "longest_marks_every": self.longest_every,
+                "mark_levels_every": list(self.levels), "located_every": self.located_every}
 
 
 def parse_pitch(text: str) -> float:
@@ -468,21 +495,29 @@ def _read_along(gray: np.ndarray, origin: np.ndarray, d: np.ndarray, n: np.ndarr
                                "it closer, or use a target")
     # The graduation's own line: where the band of marks lies across, chunk by chunk along (under
     # perspective the marks need not be square to it, so their slant would mislead).
-    slope = _band_slope(R, t, s_t, T0)
+    slope = _band_slope(R, t, s_t, T0 * factor, _polarity(prof, T0 * factor))
     band = (float(t[r0]), float(t[r1]))
-    levels = _mark_levels(R, prof, s_t, k / factor, r0, r1, T0 * factor)
-    long_every, longest_every = (None if v is None else v * factor for v in levels)
+    levels = tuple(v * factor for v in _mark_levels(R, prof, s_t, k / factor, r0, r1, T0 * factor))
+    long_every, longest_every = (min(levels), max(levels)) if levels else (None, None)
     strip = _strip(R, t, r0, r1, s_t, T0, origin, d, n)
     return {"s": s_t, "k": k, "params": params, "cov": cov, "residual_px": rms, "band": band,
-            "strip": strip, "long_every": long_every, "longest_every": longest_every, "slope": slope}
+            "strip": strip, "long_every": long_every, "longest_every": longest_every, "levels": levels,
+            "located_every": factor, "slope": slope}
 
 
 def _read_at(R: np.ndarray, t: np.ndarray, P: np.ndarray, jj: int, T0: float):
     """Ticks at the period `T0` (spectrum bin `jj`): the band of rows, the ticks, the fit; or None."""
     nt = len(t)
     row_p = P[:, max(jj - 2, 0): jj + 3].sum(axis=1)
-    best = int(np.argmax(row_p))
-    strong = row_p >= 0.3 * row_p[best]
+    # The band: rows where the marks of this period are all there. Rows that only the longer marks
+    # reach (every other one, or every fifth) are periodic at twice the period, and show it in the
+    # power at half the frequency (at T0 their harmonic would pass for the graduation).
+    jh = jj // 2
+    whole = P[:, max(jh - 2, 0): jh + 3].sum(axis=1) < row_p
+    if not whole.any():
+        whole[:] = True
+    best = int(np.argmax(np.where(whole, row_p, -1.0)))
+    strong = (row_p >= 0.3 * row_p[best]) & whole
     r0 = r1 = best
     while r0 > 0 and strong[r0 - 1]:
         r0 -= 1
@@ -506,6 +541,9 @@ def _ticks(prof: np.ndarray, T0: float) -> tuple[np.ndarray, np.ndarray] | None:
     if len(peaks) < MIN_TICKS:
         return None
     s = _centroids(q, peaks.astype(np.float64), T0)
+    s = s[_line_like(prof, s, T0, _polarity(prof, T0))]
+    if len(s) < MIN_TICKS:
+        return None
     gaps = np.diff(s) / T0
     steps = np.round(gaps)
     even = (np.abs(gaps - steps) < 0.2) & (steps >= 1) & (steps <= 2)
@@ -526,11 +564,20 @@ def _ticks(prof: np.ndarray, T0: float) -> tuple[np.ndarray, np.ndarray] | None:
     return s, k
 
 
+def _line_like(prof: np.ndarray, s: np.ndarray, T0: float, sign: float) -> np.ndarray:
+    """Which peaks at `s` are marks: a line stands out from the rule on both sides alike, where an
+    edge (the rule's end, the ground beyond it) is a step between two levels, which the high-pass
+    turns into a peak beside it. Kept: a depth below the mean of both sides larger than the step
+    between them."""
+    x = np.arange(len(prof), dtype=np.float64)
+    left, mid, right = (np.interp(s + d, x, prof) for d in (-0.5 * T0, 0.0, 0.5 * T0))
+    depth = sign * (mid - 0.5 * (left + right))
+    return depth > np.abs(left - right)
+
+
 def _tick_signal(prof: np.ndarray, T0: float) -> np.ndarray:
-    """The profile less its running mean over three periods, turned so that ticks are peaks
-    (narrow ticks make a skewed profile: dark ticks on a light rule give a long tail below)."""
-    hp = _highpass(np.asarray(prof, np.float64), T0)
-    return -hp if np.mean(hp**3) < 0 else hp
+    """The profile less its running mean over three periods, turned so that ticks are peaks."""
+    return _polarity(prof, T0) * _highpass(np.asarray(prof, np.float64), T0)
 
 
 def _highpass(x: np.ndarray, T0: float) -> np.ndarray:
@@ -562,18 +609,24 @@ def _centroids(q: np.ndarray, at: np.ndarray, T0: float) -> np.ndarray:
     return np.where(wsum > 0, c, at)
 
 
-def _band_slope(R: np.ndarray, t: np.ndarray, s: np.ndarray, T0: float) -> float:
-    """d(across)/d(along) of the band of marks: its centre across, in four chunks along."""
-    edges = np.linspace(s.min(), s.max(), 5).astype(int)
+def _band_slope(R: np.ndarray, t: np.ndarray, s: np.ndarray, T0: float, sign: float) -> float:
+    """d(across)/d(along) of the band of marks: its centre across, in four runs of ticks along.
+
+    Each row's weight is its mean contrast at the ticks themselves (a matched filter), so that an
+    edge crossing the strip (the member's, the ground's) does not sway the centre.
+    """
+    idx = np.clip(np.round(s).astype(int), 0, R.shape[1] - 1)
+    q = sign * _highpass(R.astype(np.float64), T0)[:, idx]           # (rows, ticks)
     mids, centres = [], []
-    for i0, i1 in zip(edges[:-1], edges[1:]):
-        chunk = R[:, i0:i1 + 1].astype(np.float64)
-        if chunk.shape[1] < 3 * T0:
+    for run in np.array_split(np.arange(len(s)), 4):
+        if len(run) < 3:
             continue
-        e = np.var(_highpass(chunk, T0), axis=1)
+        e = np.clip(q[:, run].mean(axis=1), 0.0, None)
+        if e.max() <= 0:
+            continue
         w = np.where(e >= 0.5 * e.max(), e, 0.0)
         centres.append(float((w * t).sum() / w.sum()))
-        mids.append(0.5 * (i0 + i1))
+        mids.append(float(s[run].mean()))
     if len(mids) < 2:
         return 0.0
     return float(np.polyfit(mids, centres, 1)[0])
@@ -637,49 +690,54 @@ def _finer_marks(prof: np.ndarray, params: np.ndarray, k: np.ndarray, T0: float)
 
 
 def _mark_levels(R: np.ndarray, prof: np.ndarray, s: np.ndarray, k: np.ndarray, r0: int, r1: int,
-                 T0: float) -> tuple[int | None, int | None]:
-    """Every how many ticks the longer marks fall: the first longer level and the longest.
+                 T0: float) -> tuple[int, ...]:
+    """Every how many ticks read each level of longer marks falls, shortest level first.
 
-    Rows beyond the graduation band are read a few at a time, outward on both sides: where only
-    some marks reach, those marks' spacing (in ticks) is their level's.
+    Each group of a few rows across the strip, within the band of marks and beyond it, is read at
+    the ticks with the band's own polarity (so that past the rule's edge, where the blurred marks
+    show inverted, nothing is read). A level shows where the marks that still stand out (more than
+    half the band's median contrast) are every m-th tick and only those: 90 % or more of them share
+    one remainder of k modulo m, and half or more of the ticks of that remainder stand out. Of such
+    m the group's level is the one whose ticks stand out most completely (where the next shorter
+    marks still reach a little, every m-th would also hold, with fewer of them standing out). A
+    level counts where two or more groups show it.
     """
-    q_band = max(float(np.median(_contrast_at(prof, s, T0))), 1e-9)
-    levels = []
-    win = max(3, (r1 - r0 + 1) // 2)
-    for side in (-1, 1):
-        start = r0 - 1 if side < 0 else r1 + 1
-        for off in range(0, len(R)):
-            a = start + side * off
-            rows = slice(min(a, a + side * (win - 1)), max(a, a + side * (win - 1)) + 1)
-            if rows.start < 0 or rows.stop > len(R):
-                break
-            q = _contrast_at(R[rows].mean(axis=0), s, T0) / q_band
-            tall = q > 0.5
-            if tall.sum() < 3 or tall.mean() > 0.6:
-                continue
-            gaps = np.diff(k[tall]).astype(int)
-            gaps = gaps[gaps > 0]
-            if not len(gaps):
-                continue
-            # The level's spacing: the smallest gap that most gaps are whole multiples of (a
-            # mark missed here and there doubles a gap, it does not change the level).
-            for m in np.unique(gaps[gaps >= 2]):
-                if np.mean(gaps % m == 0) >= 0.8:
-                    levels.append(int(m))
-                    break
-    # A level counts where two or more row groups agree on it (one group's stray marks do not).
-    vals, counts = np.unique(levels, return_counts=True) if levels else (np.array([]), np.array([]))
-    seen = vals[counts >= 2]
-    if not len(seen):
-        return None, None
-    return int(seen.min()), int(seen.max())
+    sign = _polarity(prof, T0)
+    idx = np.clip(np.round(s).astype(int), 0, R.shape[1] - 1)
+    q_band = float(np.median(sign * _highpass(prof, T0)[idx]))
+    if q_band <= 0:
+        return ()
+    win = max(2, (r1 - r0 + 1) // 4)
+    c = np.cumsum(np.vstack([np.zeros((1, R.shape[1])), R.astype(np.float64)]), axis=0)
+    groups = (c[win:] - c[:-win]) / win                           # (rows - win + 1, along)
+    tall = sign * _highpass(groups, T0)[:, idx] / q_band > 0.5    # (groups, ticks)
+    n_tall = tall.sum(axis=1)
+    usable = (n_tall >= 3) & (n_tall <= 0.6 * len(k))
+    kk = np.round(k - k.min()).astype(int)
+    level = np.zeros(len(tall), int)
+    best = np.zeros(len(tall))
+    for m in range(2, min(64, len(k) // 3) + 1):
+        of = (kk[None, :] % m) == np.arange(m)[:, None]             # (remainders, ticks)
+        hits = tall.astype(np.float64) @ of.T                        # tall ticks of each remainder
+        share = hits / np.maximum(n_tall, 1)[:, None]
+        cover = hits / np.maximum(of.sum(axis=1), 1)[None, :]
+        cover = np.where((share >= 0.9) & (of.sum(axis=1) >= 3)[None, :], cover, 0.0).max(axis=1)
+        better = usable & (cover >= 0.5) & (cover > best + 1e-9)
+        level[better], best[better] = m, cover[better]
+    vals, counts = np.unique(level[level > 0], return_counts=True)
+    return tuple(int(v) for v in vals[counts >= 2])
 
 
-def _contrast_at(prof: np.ndarray, s: np.ndarray, T0: float) -> np.ndarray:
-    """Each tick's contrast in a profile: how far it stands from its surroundings."""
-    q = _tick_signal(prof, T0)
-    idx = np.clip(np.round(s).astype(int), 0, len(q) - 1)
-    return q[idx]
+def _polarity(prof: np.ndarray, T0: float) -> float:
+    """+1 where the ticks are peaks of the high-passed profile, -1 where they are troughs (narrow
+    ticks make a skewed profile: dark ticks on a light rule give a long tail below).
+
+    The values are clipped at 4 robust standard deviations first: the steps to the ground beyond
+    the rule's ends are far stronger than the marks and would otherwise decide the sign.
+    """
+    hp = _highpass(np.asarray(prof, np.float64), T0)
+    lim = 4.0 * 1.4826 * float(np.median(np.abs(hp - np.median(hp)))) + 1e-12
+    return -1.0 if np.mean(np.clip(hp, -lim, lim) ** 3) < 0 else 1.0
 
 
 def _strip(R: np.ndarray, t: np.ndarray, r0: int, r1: int, s: np.ndarray, T0: float, origin: np.ndarray,
