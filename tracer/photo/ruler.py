@@ -11,7 +11,8 @@ and fitted by a projective model along the line,
 the exact image of evenly spaced points on a line under any perspective; its derivative is the
 local period, so a ruler seen at an angle still gives the scale at the place it is used. The
 longer marks (every 5th and 10th on a metric rule, every 2nd, 4th, 8th and 16th on an inch
-rule) are counted to confirm the pitch the user gave.
+rule) are counted in every level seen; :mod:`tracer.photo.graduation` holds them against the pitch
+the user gave, and tells which coarser graduation was read where blur took the finest marks.
 
 References
 ----------
@@ -32,6 +33,7 @@ import numpy as np
 
 from ..errors import InputError, MeasurementError
 from ..units import parse_length
+from .graduation import pitch_check   # the longer marks' check lives with the graduations; named here too
 
 __all__ = ["RulerReading", "parse_pitch", "pitch_check", "find_rulers", "vanishing_point", "two_ruler_homography", "parse_ruler", "find_ruler", "read_ruler", "ruler_tolerance",
            "MIN_TICKS", "RULER_CLASSES"]
@@ -191,45 +193,6 @@ def ruler_tolerance(pitch_mm: float, length_mm: float, cls: str) -> float:
     a, b = RULER_CLASSES[cls]
     metres = max(1, math.ceil(length_mm / 1000.0 - 1e-9))
     return (a + b * metres) / max(length_mm, pitch_mm)
-
-
-def pitch_check(pitch_mm: float, long_every: int | None, stated: str, longest_every: int | None = None) -> None:
-    """Hold the longer marks' spacing against the pitch (common practice): a metric rule marks
-    every 5th and 10th millimetre, its longest marks the centimetres; an inch rule marks every
-    2nd, 4th, 8th ... and its longest marks the inches. With the longest marks an inch rule read
-    at twice its pitch (the finest marks blurred away) is told from one read right.
-
-    Raises
-    ------
-    MeasurementError
-        The marks contradict the pitch, or were not seen (the pitch cannot be confirmed).
-    """
-    inch = abs(math.log2(25.4 / pitch_mm) - round(math.log2(25.4 / pitch_mm))) < 1e-6
-    if long_every is None or longest_every is None:
-        # Without them a reading of coarser marks (5 mm ones, blurred millimetres between) would
-        # pass for the graduation: refuse rather than be wrong by a whole factor.
-        raise MeasurementError(f"the ruler's longer marks (every 5th and 10th on a metric rule, every 2nd, 4th, 8th on "
-                               f"an inch rule) were not found, so the pitch {stated} cannot be confirmed; photograph "
-                               "the ruler closer or sharper, with its full marks in view")
-    power_of_two = long_every & (long_every - 1) == 0
-
-    def at(n: int, *mm: float) -> bool:
-        return any(abs(n * pitch_mm - v) < 1e-6 * v for v in mm)
-
-    if inch and power_of_two and at(longest_every, 25.4):
-        return None
-    if not inch and at(long_every, 1.0, 5.0, 10.0) and at(longest_every, 5.0, 10.0):
-        return None
-    if not inch and power_of_two and longest_every >= 8 and (longest_every & (longest_every - 1) == 0):
-        raise MeasurementError(f"the ruler's longer marks fall every {long_every} ticks, as on an inch rule; --pitch "
-                               f"{stated} expects every 5th and 10th; give --pitch 1/16in or 1/32in")
-    if inch and long_every in (5, 10):
-        raise MeasurementError(f"the ruler's longer marks fall every {long_every} ticks, as on a metric rule; --pitch "
-                               f"{stated} expects every 2nd, 4th, 8th ...; give --pitch 1mm")
-    raise MeasurementError(f"the ruler's marks do not fit --pitch {stated} (longer marks every {long_every} ticks, "
-                           f"the longest every {longest_every}): its finest marks were probably too blurred to read "
-                           "and coarser ones were read instead; photograph the ruler closer or sharper, or check "
-                           "--pitch")
 
 
 # ---------------------------------------------------------------------------------------------
