@@ -70,7 +70,7 @@ def pitch_check(pitch_mm: float, long_every: int | None, stated: str, longest_ev
         raise MeasurementError(verdict[1])
 
 
-def graduation_read(pitch_mm: float, levels: Sequence[int], stated: str | None = None) -> int:
+def graduation_read(pitch_mm: float, levels: Sequence[int], stated: str | None = None, *, tested: int) -> int:
     """How many of the finest graduations each tick read spans: 1 where the ticks are the finest
     marks, more where blur took those and a coarser graduation was read.
 
@@ -83,6 +83,11 @@ def graduation_read(pitch_mm: float, levels: Sequence[int], stated: str | None =
     stated : str or None
         The ``--pitch`` as given; None where it was not (the default 1 mm is then assumed, and a
         coarser reading that an inch rule would give alike is refused).
+    tested : int
+        The longest spacing [ticks] at which a level could have been seen in the run read. A
+        coarser graduation is identified only where the next finer graduation's longest marks
+        would have fallen within it: read at that finer graduation, the rule's longest marks
+        would have shown, and the longest seen could not be taken for them.
 
     Returns
     -------
@@ -99,9 +104,9 @@ def graduation_read(pitch_mm: float, levels: Sequence[int], stated: str | None =
     --------
     A millimetre rule read at its 5 mm marks (its centimetres every 2nd):
 
-    >>> graduation_read(1.0, [2], "1mm")
+    >>> graduation_read(1.0, [2], "1mm", tested=12)
     5
-    >>> graduation_read(25.4 / 16, [2, 4, 8], "1/16in")      # its eighths: the inches every 8th
+    >>> graduation_read(25.4 / 16, [2, 4, 8], "1/16in", tested=16)   # its eighths: the inches every 8th
     2
     """
     text = stated or "1mm"
@@ -114,6 +119,18 @@ def graduation_read(pitch_mm: float, levels: Sequence[int], stated: str | None =
     if kind != "coarser?":
         raise MeasurementError(message)
     fits = _coarser_fits(pitch_mm, seen)
+    if len(fits) == 1:
+        ladder = graduation_ladder(pitch_mm)
+        finer = max(g for g in ladder if g < pitch_mm * fits[0] * (1 - 1e-9))
+        # Were the ticks read the finer graduation's, the rule's longest marks would fall every
+        # top/finer of them (every 2·longest on an inch rule): beyond the run's reach, unseen.
+        unseen = round(ladder[-1] / finer)
+        if unseen > tested:
+            raise MeasurementError(f"the ruler's finest marks were too blurred to read, and too little of the ruler was "
+                                   f"read to tell which graduation the marks read are: the longest seen (every "
+                                   f"{_ordinal(longest)}) may be the rule's longest or a shorter level's, longer marks "
+                                   f"every {_ordinal(unseen)} being beyond what was read; photograph more of the "
+                                   "ruler, closer or sharper, or give --ruler X1,Y1,X2,Y2 along it")
     if len(fits) != 1:
         raise MeasurementError(f"the ruler's marks do not fit --pitch {text} (longer marks every {long_every} ticks, "
                                f"the longest every {longest}): its finest marks were probably too blurred to read, "

@@ -122,7 +122,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
                              "allowance is added) or use a target")
         readings, pitch_mm = _read_ruler(photo, ruler, pitch, ruler_class)
         # Each ruler numbered in its finest graduation, whichever graduation the photo resolved.
-        readings = [r.renumbered(graduation_read(pitch_mm, r.levels, pitch)) for r in readings]
+        readings = [r.renumbered(graduation_read(pitch_mm, r.levels, pitch, tested=r.levels_tested)) for r in readings]
         reading = readings[0]
         if len(readings) == 2:
             plane = map_from_two_rulers(readings[0], readings[1], pitch_mm, ruler_class=ruler_class)

@@ -74,6 +74,9 @@ class RulerReading:
         The longest marks (centimetres, inches) fall every this many ticks.
     levels : tuple of int
         Every level of longer marks seen: each falls every this many ticks.
+    levels_tested : int
+        The longest spacing [ticks] at which a level could have been seen in the run of marks read
+        (0: none); a level of longer marks beyond it would go unseen.
     located_every : int
         The marks located and fitted fall every this many numbered ticks: 1 where each mark was
         located; more where finer marks, seen between them but too blurred to locate one by one,
@@ -97,6 +100,7 @@ class RulerReading:
     long_every: int | None
     longest_every: int | None = None
     levels: tuple[int, ...] = ()
+    levels_tested: int = 0
     located_every: int = 1
     read_every: int = 1
 
@@ -138,7 +142,8 @@ class RulerReading:
         return replace(self, k=self.k * m, params=self.params / f, cov=self.cov / np.outer(f, f),
                        long_every=None if self.long_every is None else self.long_every * m,
                        longest_every=None if self.longest_every is None else self.longest_every * m,
-                       levels=tuple(v * m for v in self.levels), located_every=self.located_every * m,
+                       levels=tuple(v * m for v in self.levels), levels_tested=self.levels_tested * m,
+                       located_every=self.located_every * m,
                        read_every=self.read_every * m)
 
     @property
@@ -460,12 +465,13 @@ def _read_along(gray: np.ndarray, origin: np.ndarray, d: np.ndarray, n: np.ndarr
     # perspective the marks need not be square to it, so their slant would mislead).
     slope = _band_slope(R, t, s_t, T0 * factor, _polarity(prof, T0 * factor))
     band = (float(t[r0]), float(t[r1]))
-    levels = tuple(v * factor for v in _mark_levels(R, prof, s_t, k / factor, r0, r1, T0 * factor))
+    levels, tested = _mark_levels(R, prof, s_t, k / factor, r0, r1, T0 * factor)
+    levels = tuple(v * factor for v in levels)
     long_every, longest_every = (min(levels), max(levels)) if levels else (None, None)
     strip = _strip(R, t, r0, r1, s_t, T0, origin, d, n)
     return {"s": s_t, "k": k, "params": params, "cov": cov, "residual_px": rms, "band": band,
             "strip": strip, "long_every": long_every, "longest_every": longest_every, "levels": levels,
-            "located_every": factor, "slope": slope}
+            "levels_tested": tested * factor, "located_every": factor, "slope": slope}
 
 
 def _read_at(R: np.ndarray, t: np.ndarray, P: np.ndarray, jj: int, T0: float):
@@ -494,7 +500,28 @@ def _read_at(R: np.ndarray, t: np.ndarray, P: np.ndarray, jj: int, T0: float):
     params, cov, rms, keep = _fit(s_t, k)
     if rms > 0.15 * T0 or keep.sum() < MIN_TICKS:
         return None
+    if _between(prof, s_t[keep], k[keep], params, T0) > 0.3:
+        return None                      # marks as strong as the ticks between them: not a graduation
     return s_t[keep], k[keep], params, cov, rms, r0, r1, T0
+
+
+def _between(prof: np.ndarray, s: np.ndarray, k: np.ndarray, params: np.ndarray, T0: float) -> float:
+    """How strong the marks between the ticks are: the highest tick signal in the middle of each
+    gap (0.3 to 0.7 of the way), its 90th percentile over the gaps, as a share of the ticks' median.
+
+    Between the marks of a graduation lie only finer marks, weaker in the blur than the ticks (or
+    nothing). Ticks that are a lattice of marks but no graduation of the rule (every 4th
+    millimetre, say, which the spectrum of 5 mm and centimetre marks can suggest) leave marks as
+    strong as themselves between them, in some of the gaps: their longer marks could pass for the
+    rule's and the scale be off by a whole factor.
+    """
+    q = _tick_signal(prof, T0)
+    a, b, c = params
+    x = np.arange(k.min(), k.max())[:, None] + np.linspace(0.3, 0.7, 9)[None, :]
+    grid = np.arange(len(q), dtype=np.float64)
+    gaps = np.interp((a + b * x) / (1 + c * x), grid, q).max(axis=1)
+    ticks = np.median(np.interp(s, grid, q))
+    return float(np.percentile(gaps, 90) / ticks) if ticks > 0 else np.inf
 
 
 def _ticks(prof: np.ndarray, T0: float) -> tuple[np.ndarray, np.ndarray] | None:
@@ -575,8 +602,11 @@ def _centroids(q: np.ndarray, at: np.ndarray, T0: float) -> np.ndarray:
 def _band_slope(R: np.ndarray, t: np.ndarray, s: np.ndarray, T0: float, sign: float) -> float:
     """d(across)/d(along) of the band of marks: its centre across, in four runs of ticks along.
 
-    Each row's weight is its mean contrast at the ticks themselves (a matched filter), so that an
-    edge crossing the strip (the member's, the ground's) does not sway the centre.
+    Each row's weight is the lower quartile of its contrast at the ticks themselves: read at the
+    ticks (a matched filter), an edge crossing the strip (the member's, the ground's) does not sway
+    the centre, and the lower quartile is the shortest marks' (half or more of every rule's marks),
+    which every mark shares. A mean, or a median where half the marks are longer, would follow the
+    longer marks into the rows they reach, by more or less from place to place.
     """
     idx = np.clip(np.round(s).astype(int), 0, R.shape[1] - 1)
     q = sign * _highpass(R.astype(np.float64), T0)[:, idx]           # (rows, ticks)
@@ -584,7 +614,7 @@ def _band_slope(R: np.ndarray, t: np.ndarray, s: np.ndarray, T0: float, sign: fl
     for run in np.array_split(np.arange(len(s)), 4):
         if len(run) < 3:
             continue
-        e = np.clip(q[:, run].mean(axis=1), 0.0, None)
+        e = np.clip(np.percentile(q[:, run], 25, axis=1), 0.0, None)
         if e.max() <= 0:
             continue
         w = np.where(e >= 0.5 * e.max(), e, 0.0)
@@ -653,42 +683,82 @@ def _finer_marks(prof: np.ndarray, params: np.ndarray, k: np.ndarray, T0: float)
 
 
 def _mark_levels(R: np.ndarray, prof: np.ndarray, s: np.ndarray, k: np.ndarray, r0: int, r1: int,
-                 T0: float) -> tuple[int, ...]:
-    """Every how many ticks read each level of longer marks falls, shortest level first.
+                 T0: float) -> tuple[tuple[int, ...], int]:
+    """Every how many ticks read each level of longer marks falls, shortest level first, and the
+    longest spacing a level could have been seen at.
 
     Each group of a few rows across the strip, within the band of marks and beyond it, is read at
     the ticks with the band's own polarity (so that past the rule's edge, where the blurred marks
-    show inverted, nothing is read). A level shows where the marks that still stand out (more than
-    half the band's median contrast) are every m-th tick and only those: 90 % or more of them share
-    one remainder of k modulo m, and half or more of the ticks of that remainder stand out. Of such
-    m the group's level is the one whose ticks stand out most completely (where the next shorter
-    marks still reach a little, every m-th would also hold, with fewer of them standing out). A
-    level counts where two or more groups show it.
+    show inverted, nothing is read). For each m the ticks are sorted into classes by k modulo m,
+    and each class's mean contrast taken (a mean over many marks stands out of the noise where a
+    single blurred mark does not). A group shows level m where one class stands out (its mean
+    more than six standard errors above zero and more than half the band's median contrast) and
+    every other class's mean is below 0.3 of it; the group's level is the largest such m (every
+    m/2-th tick also fits, its standing class diluted by marks that do not reach; every 2m-th
+    does not, two classes then standing out). A level counts where two or more groups show it.
+
+    The longest level seen is then split into every other mark, and the halves' mean contrasts
+    compared row by row: where they differ (by more than half the marks' peak contrast and six
+    standard errors, in three or more groups) every other one reaches further, and twice that
+    level is a level too. A level could have been seen where five or more of its marks lie in the
+    run read, and, above the longest level seen, only where those marks are seen to end within the
+    rows read.
     """
     sign = _polarity(prof, T0)
     idx = np.clip(np.round(s).astype(int), 0, R.shape[1] - 1)
     q_band = float(np.median(sign * _highpass(prof, T0)[idx]))
     if q_band <= 0:
-        return ()
+        return (), 0
     win = max(2, (r1 - r0 + 1) // 4)
     c = np.cumsum(np.vstack([np.zeros((1, R.shape[1])), R.astype(np.float64)]), axis=0)
-    groups = (c[win:] - c[:-win]) / win                           # (rows - win + 1, along)
-    tall = sign * _highpass(groups, T0)[:, idx] / q_band > 0.5    # (groups, ticks)
-    n_tall = tall.sum(axis=1)
-    usable = (n_tall >= 3) & (n_tall <= 0.6 * len(k))
+    con = sign * _highpass((c[win:] - c[:-win]) / win, T0)[:, idx] / q_band   # (row groups, ticks)
     kk = np.round(k - k.min()).astype(int)
-    level = np.zeros(len(tall), int)
-    best = np.zeros(len(tall))
+    level = np.zeros(len(con), int)
+    which = np.zeros(len(con), int)
     for m in range(2, min(64, len(k) // 3) + 1):
-        of = (kk[None, :] % m) == np.arange(m)[:, None]             # (remainders, ticks)
-        hits = tall.astype(np.float64) @ of.T                        # tall ticks of each remainder
-        share = hits / np.maximum(n_tall, 1)[:, None]
-        cover = hits / np.maximum(of.sum(axis=1), 1)[None, :]
-        cover = np.where((share >= 0.9) & (of.sum(axis=1) >= 3)[None, :], cover, 0.0).max(axis=1)
-        better = usable & (cover >= 0.5) & (cover > best + 1e-9)
-        level[better], best[better] = m, cover[better]
+        of = ((kk[None, :] % m) == np.arange(m)[:, None]).astype(np.float64)   # (classes, ticks)
+        n = of.sum(axis=1)
+        if n.min() < 3:
+            continue
+        mean = con @ of.T / n
+        var = np.maximum((con**2) @ of.T / n - mean**2, 0.0) * n / (n - 1)
+        r = np.argmax(mean, axis=1)
+        top = mean[np.arange(len(con)), r]
+        se = np.sqrt(var[np.arange(len(con)), r] / n[r])
+        rest = np.where(np.arange(m)[None, :] == r[:, None], -np.inf, mean).max(axis=1)
+        fits = (top > 0.5) & (top > 6.0 * se) & (rest < 0.3 * top)
+        level[fits], which[fits] = m, r[fits]
     vals, counts = np.unique(level[level > 0], return_counts=True)
-    return tuple(int(v) for v in vals[counts >= 2])
+    seen = tuple(int(v) for v in vals[counts >= 2])
+    # A level above the longest seen is ruled out only where it would have shown: five or more of
+    # its marks in the run read, and those longest marks seen to end within the rows read (where
+    # they run off the strip one may lie beyond).
+    tested = min(64, (int(np.ptp(kk)) + 1) // 5)
+    if not seen:
+        return seen, tested
+    M = seen[-1]
+    r = int(np.bincount(which[level == M]).argmax())
+    while 2 * M <= tested:
+        # Every other one of the longest marks reaching further is a level above, even where the
+        # class means above missed it (the shorter marks lingering in some rows).
+        cls = (kk % M) == r
+        other = ((kk[cls] - r) // M) % 2 == 1
+        a, b = con[:, cls][:, ~other], con[:, cls][:, other]
+        d = a.mean(axis=1) - b.mean(axis=1)
+        se = np.sqrt(a.var(axis=1, ddof=1) / a.shape[1] + b.var(axis=1, ddof=1) / b.shape[1])
+        peak = con[:, cls].mean(axis=1).max()
+        split = (np.abs(d) > 0.5 * peak) & (np.abs(d) > 6.0 * se)
+        if split.sum() < 3:
+            break
+        r = r if d[split].mean() > 0 else r + M
+        M *= 2
+        seen = seen + (M,)
+    reach = con[:, (kk % M) == r].mean(axis=1)
+    far = int(np.argmax(reach))
+    beyond = reach[far:] if far >= (r0 + r1) / 2 else reach[far::-1]
+    if not (beyond < 0.3 * reach[far]).any():
+        tested = min(tested, M)
+    return seen, tested
 
 
 def _polarity(prof: np.ndarray, T0: float) -> float:
