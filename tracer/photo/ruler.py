@@ -701,8 +701,10 @@ def _mark_levels(R: np.ndarray, prof: np.ndarray, s: np.ndarray, k: np.ndarray, 
     compared row by row: where they differ (by more than half the marks' peak contrast and six
     standard errors, in three or more groups) every other one reaches further, and twice that
     level is a level too. A level could have been seen where five or more of its marks lie in the
-    run read, and, above the longest level seen, only where those marks are seen to end within the
-    rows read.
+    run read; above the longest level seen, only where the split shows no hint of a difference
+    (a quarter of the peak contrast and three standard errors, in two groups), had the power to
+    show one (half the peak contrast over the split's median standard error where the marks stand,
+    six or more), and those marks are seen to end within the rows read.
     """
     sign = _polarity(prof, T0)
     idx = np.clip(np.round(s).astype(int), 0, R.shape[1] - 1)
@@ -745,14 +747,21 @@ def _mark_levels(R: np.ndarray, prof: np.ndarray, s: np.ndarray, k: np.ndarray, 
         other = ((kk[cls] - r) // M) % 2 == 1
         a, b = con[:, cls][:, ~other], con[:, cls][:, other]
         d = a.mean(axis=1) - b.mean(axis=1)
-        se = np.sqrt(a.var(axis=1, ddof=1) / a.shape[1] + b.var(axis=1, ddof=1) / b.shape[1])
-        peak = con[:, cls].mean(axis=1).max()
-        split = (np.abs(d) > 0.5 * peak) & (np.abs(d) > 6.0 * se)
-        if split.sum() < 3:
-            break
-        r = r if d[split].mean() > 0 else r + M
-        M *= 2
-        seen = seen + (M,)
+        se = np.sqrt(a.var(axis=1, ddof=1) / a.shape[1] + b.var(axis=1, ddof=1) / b.shape[1]) + 1e-12
+        reach = con[:, cls].mean(axis=1)
+        split = (np.abs(d) > 0.5 * reach.max()) & (np.abs(d) > 6.0 * se)
+        if split.sum() >= 3:
+            r = r if d[split].mean() > 0 else r + M
+            M *= 2
+            seen = seen + (M,)
+            continue
+        # Not shown, but not ruled out either where a weaker difference shows, or where a split as
+        # large as half the marks' contrast would not stand six standard errors clear.
+        hint = (np.abs(d) > 0.25 * reach.max()) & (np.abs(d) > 3.0 * se)
+        power = 0.5 * reach.max() / np.median(se[reach > 0.5 * reach.max()])
+        if hint.sum() >= 2 or power < 6.0:
+            tested = min(tested, M)
+        break
     reach = con[:, (kk % M) == r].mean(axis=1)
     far = int(np.argmax(reach))
     beyond = reach[far:] if far >= (r0 + r1) / 2 else reach[far::-1]
