@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 
 from tracer.errors import InputError, MeasurementError
+from tracer.photo.graduation import graduation_ladder, graduation_read
 from tracer.photo.pipeline import measure_photo
 from tracer.photo.ruler import RULER_CLASSES, parse_pitch, parse_ruler, pitch_check, ruler_tolerance
 from tracer.photo.synth import Scene, render
@@ -216,3 +217,138 @@ def test_two_rulers_square_to_each_other_remove_the_perspective(tmp_path):
         assert not any("fixes the scale along its own direction only" in w for w in res.warnings)
     for k in covered:
         assert np.mean(covered[k]) >= 0.9, (k, covered[k])
+
+
+# A rule read at the finest graduation the photo resolves ------------------------------------------
+
+def _true_mm_per_px(r, at_px, angle_deg: float) -> float:
+    """The render's scale along the ruler at an image point [mm/px], from the renderer's homography
+    (mm plane -> px): 1 / |J u|, J the homography's Jacobian there, u the ruler's direction."""
+    H = r.homography
+    p = np.linalg.solve(H, [at_px[0], at_px[1], 1.0])
+    q = H @ (p / p[2])
+    J = (H[:2, :2] - np.outer(q[:2] / q[2], H[2, :2])) / q[2]
+    a = np.radians(angle_deg)
+    return 1.0 / float(np.linalg.norm(J @ [np.cos(a), np.sin(a)]))
+
+
+@pytest.mark.parametrize("pitch,levels,stated,m", [
+    (1.0, [5, 10], "1mm", 1),                  # millimetres read: 5 mm and centimetre marks longer
+    (1.0, [2], "1mm", 5),                      # its 5 mm marks read: the centimetres every 2nd
+    (25.4 / 16, [2, 4, 8, 16], "1/16in", 1),
+    (25.4 / 16, [2, 4, 8], "1/16in", 2),       # eighths: quarters, halves, inches every 2nd, 4th, 8th
+    (25.4 / 16, [2, 4], "1/16in", 4),          # quarters
+    (25.4 / 16, [2], "1/16in", 8),             # halves
+    (25.4 / 32, [2, 16], "1/32in", 2),         # sixteenths, the halves' level not seen
+    (0.5, [2], "0.5mm", 10),                   # a half-millimetre rule read at its 5 mm marks
+])
+def test_the_longer_marks_tell_which_graduation_was_read(pitch, levels, stated, m):
+    # Metric rules mark 0.5, 1, 5, 10 mm; inch rules halve the inch; each rule's longest marks are
+    # its centimetres or inches (common practice). The level read is fixed by the longest marks,
+    # given a run long enough (here 64 ticks) to have shown the next finer graduation's longest.
+    assert graduation_read(pitch, levels, stated, tested=64) == m
+
+
+@pytest.mark.parametrize("pitch,levels,stated,tested,message", [
+    (1.0, [2], None, None, "may be a metric rule's 5 mm marks or an inch rule's 1/2 in marks; give --pitch"),
+    (1.0, [2, 4], "1mm", None, "no coarser graduation of the rule fits the marks read"),
+    (1.0, [], "1mm", None, "were not found, so the pitch 1mm cannot be confirmed"),
+    (1.0, [2, 4, 8], "1mm", None, "as on an inch rule"),
+    (25.4 / 16, [5], "1/16in", None, "as on a metric rule"),
+    (2.0, [2], "2mm", None, "no coarser graduation of the rule fits"),        # no graduations above 2 mm known
+    # Eighths with the inches every 8th, or sixteenths whose inches (every 16th) the run was too
+    # short to show: not told apart, refused.
+    (25.4 / 16, [2, 4, 8], "1/16in", 12, "too little of the ruler was read"),
+])
+def test_a_graduation_not_told_apart_is_refused(pitch, levels, stated, tested, message):
+    with pytest.raises(MeasurementError, match=message):
+        graduation_read(pitch, levels, stated, tested=64 if tested is None else tested)
+
+
+def test_graduation_ladders():
+    assert graduation_ladder(1.0) == (1.0, 5.0, 10.0)
+    assert graduation_ladder(0.5) == (0.5, 1.0, 5.0, 10.0)
+    assert graduation_ladder(25.4 / 32) == pytest.approx([25.4 / 32, 25.4 / 16, 25.4 / 8, 25.4 / 4, 25.4 / 2, 25.4])
+    assert graduation_ladder(2.0) == (2.0,)
+
+
+# Renders of a millimetre rule whose millimetre marks vanish in the blur (period 4 to 5 px under a
+# blur of 2.3 to 3 px) while its 5 mm marks stay (our renders): (blur [px], px per mm, angle, seed).
+BLURRED_MM = [(2.4, 5.0, -6.0, 11), (3.0, 5.0, 3.0, 12), (2.5, 4.0, 7.0, 13), (3.0, 4.0, -2.0, 14),
+              (2.7, 4.5, 5.0, 15), (2.3, 4.5, -8.0, 16)]
+# A 10 in rule whose sixteenths vanish (7.1 to 7.9 px apart under 2.8 to 3.2 px of blur), its
+# eighths kept. Where a level of longer marks every 16th eighth could have gone unseen (fewer
+# than the whole run of 80 eighths read, or a hint of one too weak to tell), the reading is
+# refused instead: so it was for two more renders tried for this list (σ = 3.4 px at 5 px/mm,
+# 3.0 px at 4.8 px/mm), and for the quarters read at 4 px/mm.
+BLURRED_INCH = [(3.0, 5.0, -6.0, 11), (3.0, 5.0, 3.0, 12), (2.8, 4.5, -2.0, 14), (3.2, 5.0, 1.0, 19),
+                (2.9, 4.6, 6.0, 20), (2.8, 5.0, 0.0, 22)]
+
+
+def _coarse_readings(tmp_path, ruler, pitch, renders, name):
+    """Each render read blurred and sharp: (its scale record, warnings, the scale's error against the
+    renderer's homography, the sharp reading's record)."""
+    out = []
+    for blur, ppm, angle, seed in renders:
+        kw = dict(ruler=ruler, at=(-20.0, -80.0, angle), px_per_mm=ppm, noise=2.0, jpeg=90, seed=seed)
+        r, photo = _photo(tmp_path, _scene(blur=blur, **kw), f"{name}{seed}.jpg")
+        pm = measure_photo(photo, ruler="auto", pitch=pitch)
+        rec = pm.measurement.source["scale"]
+        err = rec["mm_per_px"] / _true_mm_per_px(r, rec["scale_taken_at_px"], angle) - 1.0
+        _, photo = _photo(tmp_path, _scene(blur=1.0, **kw), f"{name}{seed}-sharp.jpg")
+        sharp = measure_photo(photo, ruler="auto", pitch=pitch).measurement.source["scale"]
+        out.append((rec, pm.measurement.warnings, err, sharp))
+    return out
+
+
+def test_a_blurred_millimetre_rule_is_read_at_its_5mm_marks(tmp_path):
+    # Once refused; now read at the 5 mm marks, told apart by the centimetres every 2nd, with the
+    # period fit of those fewer, blurrier marks: the interval is wider than the sharp rule's and,
+    # at k = 2, covers the true scale (the renderer's homography) in about 95 % of renders.
+    covered = []
+    for rec, warnings, err, sharp in _coarse_readings(tmp_path, METRIC, "1mm", BLURRED_MM, "mm"):
+        assert rec["graduation_read_mm"] == 5.0 and rec["finest_marks"] == "too blurred", rec
+        assert rec["pitch_mm"] == 1.0 and rec["ticks_found"] >= 30
+        assert any("finest marks (1 mm) were too blurred to read: its 5 mm marks were read instead" in w
+                   for w in warnings)
+        assert abs(err) < 0.01                      # 5 mm marks taken for 1 mm would be 400 % off
+        U = 2.0 * rec["period_fit_u_percent"] / 100.0
+        covered.append(abs(err) <= U)
+        assert sharp["finest_marks"] == "read" and sharp["graduation_read_mm"] == 1.0
+        assert rec["period_fit_u_percent"] > 2.0 * sharp["period_fit_u_percent"]
+    assert sum(covered) >= len(covered) - 1, covered
+
+
+def test_a_blurred_inch_rule_is_read_at_its_eighths(tmp_path):
+    # Told apart by the quarters, halves and inches every 2nd, 4th and 8th eighth.
+    covered = []
+    for rec, warnings, err, sharp in _coarse_readings(tmp_path, SIXTEENTHS, "1/16in", BLURRED_INCH, "in"):
+        assert rec["finest_marks"] == "too blurred" and rec["graduation_read_mm"] == pytest.approx(25.4 / 8), rec
+        assert any("finest marks (1/16 in) were too blurred to read: its 1/8 in marks were read instead" in w
+                   for w in warnings)
+        assert abs(err) < 0.01                      # eighths taken for quarters would be 100 % off
+        covered.append(abs(err) <= 2.0 * rec["period_fit_u_percent"] / 100.0)
+        assert sharp["finest_marks"] == "read" and rec["period_fit_u_percent"] > 2.0 * sharp["period_fit_u_percent"]
+    assert sum(covered) >= len(covered) - 1, covered
+
+
+def test_a_blurred_rule_whose_graduation_cannot_be_told_is_refused(tmp_path):
+    blurred = dict(at=(-20.0, -80.0, 4.0), blur=2.6, px_per_mm=5.0, noise=2.0, jpeg=90, seed=21)
+    # Its 5 mm marks read, but no centimetre marks longer among them: nothing tells which
+    # graduation they are, so the reading is refused as before.
+    r, photo = _photo(tmp_path, _scene(ruler=dict(METRIC, ruler_marks=(5,)), **blurred), "five.jpg")
+    with pytest.raises(MeasurementError, match="were not found, so the pitch 1mm cannot be confirmed"):
+        measure_photo(photo, ruler="auto", pitch="1mm")
+    # A millimetre rule read at its 5 mm marks without --pitch: an inch rule's half inches would
+    # look alike (every 2nd longer), and the default is not taken for the user's word.
+    r, photo = _photo(tmp_path, _scene(**blurred), "default.jpg")
+    with pytest.raises(MeasurementError, match="too blurred to read, and the marks read .* may be a metric rule's 5 mm "
+                                               "marks or an inch rule's 1/2 in marks; give --pitch 1mm"):
+        measure_photo(photo, ruler="auto")
+    run = subprocess.run([sys.executable, "-m", "tracer", "measure", str(photo), "--ruler", "auto", "--pitch", "1mm",
+                          "--json", "-", "--draws", "200"], capture_output=True, text=True)
+    assert run.returncode == 0, run.stderr
+    out = json.loads(run.stdout)
+    rec = out["source"]["scale"]
+    assert rec["graduation_read_mm"] == 5.0 and rec["finest_marks"] == "too blurred" and rec["ticks_found"] >= 30
+    assert any("its 5 mm marks were read instead" in w for w in out["warnings"])

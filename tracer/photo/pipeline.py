@@ -21,10 +21,11 @@ from ..units import parse_length
 from .bark import find_bark
 from .check import TraceCheck, check_trace
 from .contour import Trace, coarser_section, hand_trace, trace_boundary
+from .graduation import graduation_read
 from .hints import Hints, make_hints
 from .lens import LensProfile, read_profile
 from .load import Photo, load_photo
-from .ruler import MIN_TICKS, RulerReading, pitch_check
+from .ruler import MIN_TICKS, RulerReading
 from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_ruler,
                     map_from_target, map_from_two_rulers, parse_target, parse_two_points)
 from .segment import Segmentation, segment_member
@@ -154,8 +155,8 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
             raise InputError("--ruler with --lens is not supported yet: measure with the ruler alone (a lens "
                              "allowance is added) or use a target")
         readings, pitch_mm = _read_ruler(photo, ruler, pitch, ruler_class)
-        for r in readings:
-            pitch_check(pitch_mm, r.long_every, pitch or "1mm", r.longest_every)
+        # Each ruler numbered in its finest graduation, whichever graduation the photo resolved.
+        readings = [r.renumbered(graduation_read(pitch_mm, r.levels, pitch, tested=r.levels_tested)) for r in readings]
         reading = readings[0]
         if len(readings) == 2:
             plane = map_from_two_rulers(readings[0], readings[1], pitch_mm, ruler_class=ruler_class)

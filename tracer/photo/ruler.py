@@ -11,7 +11,8 @@ and fitted by a projective model along the line,
 the exact image of evenly spaced points on a line under any perspective; its derivative is the
 local period, so a ruler seen at an angle still gives the scale at the place it is used. The
 longer marks (every 5th and 10th on a metric rule, every 2nd, 4th, 8th and 16th on an inch
-rule) are counted to confirm the pitch the user gave.
+rule) are counted in every level seen; :mod:`tracer.photo.graduation` holds them against the pitch
+the user gave, and tells which coarser graduation was read where blur took the finest marks.
 
 References
 ----------
@@ -26,12 +27,13 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from ..errors import InputError, MeasurementError
 from ..units import parse_length
+from .graduation import pitch_check   # the longer marks' check lives with the graduations; named here too
 
 __all__ = ["RulerReading", "parse_pitch", "pitch_check", "find_rulers", "vanishing_point", "two_ruler_homography", "parse_ruler", "find_ruler", "read_ruler", "ruler_tolerance",
            "MIN_TICKS", "RULER_CLASSES"]
@@ -70,6 +72,19 @@ class RulerReading:
         The first longer marks fall every this many ticks (None: not seen).
     longest_every : int or None
         The longest marks (centimetres, inches) fall every this many ticks.
+    levels : tuple of int
+        Every level of longer marks seen: each falls every this many ticks.
+    levels_tested : int
+        The longest spacing [ticks] at which a level could have been seen in the run of marks read
+        (0: none); a level of longer marks beyond it would go unseen.
+    located_every : int
+        The marks located and fitted fall every this many numbered ticks: 1 where each mark was
+        located; more where finer marks, seen between them but too blurred to locate one by one,
+        were counted in, or where a coarser graduation was read (see `read_every`).
+    read_every : int
+        Each mark numbered after :meth:`renumbered` spans this many ticks of the finest
+        graduation: 1 where the finest marks were seen; more where they were lost in blur and a
+        coarser graduation was identified by its longer marks.
     """
 
     origin: np.ndarray
@@ -84,6 +99,10 @@ class RulerReading:
     strip: np.ndarray
     long_every: int | None
     longest_every: int | None = None
+    levels: tuple[int, ...] = ()
+    levels_tested: int = 0
+    located_every: int = 1
+    read_every: int = 1
 
     @property
     def ticks_px(self) -> np.ndarray:
@@ -113,6 +132,20 @@ class RulerReading:
             g[i] = (period(self.params + d) - period(self.params - d)) / (2 * d[i])
         return T, float(math.sqrt(max(g @ self.cov @ g, 0.0)))
 
+    def renumbered(self, m: int) -> "RulerReading":
+        """The same reading with each tick numbered as `m` ticks of a finer graduation: the fit's
+        parameters and covariance carried over exactly (k = k'/m in s(k)), so the period's
+        relative uncertainty is the coarse fit's."""
+        if m == 1:
+            return self
+        f = np.array([1.0, m, m])
+        return replace(self, k=self.k * m, params=self.params / f, cov=self.cov / np.outer(f, f),
+                       long_every=None if self.long_every is None else self.long_every * m,
+                       longest_every=None if self.longest_every is None else self.longest_every * m,
+                       levels=tuple(v * m for v in self.levels), levels_tested=self.levels_tested * m,
+                       located_every=self.located_every * m,
+                       read_every=self.read_every * m)
+
     @property
     def extent(self) -> tuple[float, float]:
         """The first and last tick found [px along]."""
@@ -126,7 +159,8 @@ class RulerReading:
         ends = self.origin + np.outer([s0, s1], self.direction) + t * self.normal   # along the marks
         return {"axis_px": ends.round(2).tolist(), "ticks_found": int(len(self.s)),
                 "period_change_percent": 100.0 * (T1 / T0 - 1.0), "fit_residual_px_rms": self.residual_px,
-                "long_marks_every": self.long_every, "longest_marks_every": self.longest_every}
+                "long_marks_every": self.long_every, "longest_marks_every": self.longest_every,
+                "mark_levels_every": list(self.levels), "located_every": self.located_every}
 
 
 def parse_pitch(text: str) -> float:
@@ -164,45 +198,6 @@ def ruler_tolerance(pitch_mm: float, length_mm: float, cls: str) -> float:
     a, b = RULER_CLASSES[cls]
     metres = max(1, math.ceil(length_mm / 1000.0 - 1e-9))
     return (a + b * metres) / max(length_mm, pitch_mm)
-
-
-def pitch_check(pitch_mm: float, long_every: int | None, stated: str, longest_every: int | None = None) -> None:
-    """Hold the longer marks' spacing against the pitch (common practice): a metric rule marks
-    every 5th and 10th millimetre, its longest marks the centimetres; an inch rule marks every
-    2nd, 4th, 8th ... and its longest marks the inches. With the longest marks an inch rule read
-    at twice its pitch (the finest marks blurred away) is told from one read right.
-
-    Raises
-    ------
-    MeasurementError
-        The marks contradict the pitch, or were not seen (the pitch cannot be confirmed).
-    """
-    inch = abs(math.log2(25.4 / pitch_mm) - round(math.log2(25.4 / pitch_mm))) < 1e-6
-    if long_every is None or longest_every is None:
-        # Without them a reading of coarser marks (5 mm ones, blurred millimetres between) would
-        # pass for the graduation: refuse rather than be wrong by a whole factor.
-        raise MeasurementError(f"the ruler's longer marks (every 5th and 10th on a metric rule, every 2nd, 4th, 8th on "
-                               f"an inch rule) were not found, so the pitch {stated} cannot be confirmed; photograph "
-                               "the ruler closer or sharper, with its full marks in view")
-    power_of_two = long_every & (long_every - 1) == 0
-
-    def at(n: int, *mm: float) -> bool:
-        return any(abs(n * pitch_mm - v) < 1e-6 * v for v in mm)
-
-    if inch and power_of_two and at(longest_every, 25.4):
-        return None
-    if not inch and at(long_every, 1.0, 5.0, 10.0) and at(longest_every, 5.0, 10.0):
-        return None
-    if not inch and power_of_two and longest_every >= 8 and (longest_every & (longest_every - 1) == 0):
-        raise MeasurementError(f"the ruler's longer marks fall every {long_every} ticks, as on an inch rule; --pitch "
-                               f"{stated} expects every 5th and 10th; give --pitch 1/16in or 1/32in")
-    if inch and long_every in (5, 10):
-        raise MeasurementError(f"the ruler's longer marks fall every {long_every} ticks, as on a metric rule; --pitch "
-                               f"{stated} expects every 2nd, 4th, 8th ...; give --pitch 1mm")
-    raise MeasurementError(f"the ruler's marks do not fit --pitch {stated} (longer marks every {long_every} ticks, "
-                           f"the longest every {longest_every}): its finest marks were probably too blurred to read "
-                           "and coarser ones were read instead; photograph the ruler closer or sharper, or check "
-                           "--pitch")
 
 
 # ---------------------------------------------------------------------------------------------
@@ -469,21 +464,30 @@ def _read_along(gray: np.ndarray, origin: np.ndarray, d: np.ndarray, n: np.ndarr
                                "it closer, or use a target")
     # The graduation's own line: where the band of marks lies across, chunk by chunk along (under
     # perspective the marks need not be square to it, so their slant would mislead).
-    slope = _band_slope(R, t, s_t, T0)
+    slope = _band_slope(R, t, s_t, T0 * factor, _polarity(prof, T0 * factor))
     band = (float(t[r0]), float(t[r1]))
-    levels = _mark_levels(R, prof, s_t, k / factor, r0, r1, T0 * factor)
-    long_every, longest_every = (None if v is None else v * factor for v in levels)
+    levels, tested = _mark_levels(R, prof, s_t, k / factor, r0, r1, T0 * factor)
+    levels = tuple(v * factor for v in levels)
+    long_every, longest_every = (min(levels), max(levels)) if levels else (None, None)
     strip = _strip(R, t, r0, r1, s_t, T0, origin, d, n)
     return {"s": s_t, "k": k, "params": params, "cov": cov, "residual_px": rms, "band": band,
-            "strip": strip, "long_every": long_every, "longest_every": longest_every, "slope": slope}
+            "strip": strip, "long_every": long_every, "longest_every": longest_every, "levels": levels,
+            "levels_tested": tested * factor, "located_every": factor, "slope": slope}
 
 
 def _read_at(R: np.ndarray, t: np.ndarray, P: np.ndarray, jj: int, T0: float):
     """Ticks at the period `T0` (spectrum bin `jj`): the band of rows, the ticks, the fit; or None."""
     nt = len(t)
     row_p = P[:, max(jj - 2, 0): jj + 3].sum(axis=1)
-    best = int(np.argmax(row_p))
-    strong = row_p >= 0.3 * row_p[best]
+    # The band: rows where the marks of this period are all there. Rows that only the longer marks
+    # reach (every other one, or every fifth) are periodic at twice the period, and show it in the
+    # power at half the frequency (at T0 their harmonic would pass for the graduation).
+    jh = jj // 2
+    whole = P[:, max(jh - 2, 0): jh + 3].sum(axis=1) < row_p
+    if not whole.any():
+        whole[:] = True
+    best = int(np.argmax(np.where(whole, row_p, -1.0)))
+    strong = (row_p >= 0.3 * row_p[best]) & whole
     r0 = r1 = best
     while r0 > 0 and strong[r0 - 1]:
         r0 -= 1
@@ -497,7 +501,28 @@ def _read_at(R: np.ndarray, t: np.ndarray, P: np.ndarray, jj: int, T0: float):
     params, cov, rms, keep = _fit(s_t, k)
     if rms > 0.15 * T0 or keep.sum() < MIN_TICKS:
         return None
+    if _between(prof, s_t[keep], k[keep], params, T0) > 0.3:
+        return None                      # marks as strong as the ticks between them: not a graduation
     return s_t[keep], k[keep], params, cov, rms, r0, r1, T0
+
+
+def _between(prof: np.ndarray, s: np.ndarray, k: np.ndarray, params: np.ndarray, T0: float) -> float:
+    """How strong the marks between the ticks are: the highest tick signal in the middle of each
+    gap (0.3 to 0.7 of the way), its 90th percentile over the gaps, as a share of the ticks' median.
+
+    Between the marks of a graduation lie only finer marks, weaker in the blur than the ticks (or
+    nothing). Ticks that are a lattice of marks but no graduation of the rule (every 4th
+    millimetre, say, which the spectrum of 5 mm and centimetre marks can suggest) leave marks as
+    strong as themselves between them, in some of the gaps: their longer marks could pass for the
+    rule's and the scale be off by a whole factor.
+    """
+    q = _tick_signal(prof, T0)
+    a, b, c = params
+    x = np.arange(k.min(), k.max())[:, None] + np.linspace(0.3, 0.7, 9)[None, :]
+    grid = np.arange(len(q), dtype=np.float64)
+    gaps = np.interp((a + b * x) / (1 + c * x), grid, q).max(axis=1)
+    ticks = np.median(np.interp(s, grid, q))
+    return float(np.percentile(gaps, 90) / ticks) if ticks > 0 else np.inf
 
 
 def _ticks(prof: np.ndarray, T0: float) -> tuple[np.ndarray, np.ndarray] | None:
@@ -507,6 +532,9 @@ def _ticks(prof: np.ndarray, T0: float) -> tuple[np.ndarray, np.ndarray] | None:
     if len(peaks) < MIN_TICKS:
         return None
     s = _centroids(q, peaks.astype(np.float64), T0)
+    s = s[_line_like(prof, s, T0, _polarity(prof, T0))]
+    if len(s) < MIN_TICKS:
+        return None
     gaps = np.diff(s) / T0
     steps = np.round(gaps)
     even = (np.abs(gaps - steps) < 0.2) & (steps >= 1) & (steps <= 2)
@@ -527,11 +555,20 @@ def _ticks(prof: np.ndarray, T0: float) -> tuple[np.ndarray, np.ndarray] | None:
     return s, k
 
 
+def _line_like(prof: np.ndarray, s: np.ndarray, T0: float, sign: float) -> np.ndarray:
+    """Which peaks at `s` are marks: a line stands out from the rule on both sides alike, where an
+    edge (the rule's end, the ground beyond it) is a step between two levels, which the high-pass
+    turns into a peak beside it. Kept: a depth below the mean of both sides larger than the step
+    between them."""
+    x = np.arange(len(prof), dtype=np.float64)
+    left, mid, right = (np.interp(s + d, x, prof) for d in (-0.5 * T0, 0.0, 0.5 * T0))
+    depth = sign * (mid - 0.5 * (left + right))
+    return depth > np.abs(left - right)
+
+
 def _tick_signal(prof: np.ndarray, T0: float) -> np.ndarray:
-    """The profile less its running mean over three periods, turned so that ticks are peaks
-    (narrow ticks make a skewed profile: dark ticks on a light rule give a long tail below)."""
-    hp = _highpass(np.asarray(prof, np.float64), T0)
-    return -hp if np.mean(hp**3) < 0 else hp
+    """The profile less its running mean over three periods, turned so that ticks are peaks."""
+    return _polarity(prof, T0) * _highpass(np.asarray(prof, np.float64), T0)
 
 
 def _highpass(x: np.ndarray, T0: float) -> np.ndarray:
@@ -563,18 +600,27 @@ def _centroids(q: np.ndarray, at: np.ndarray, T0: float) -> np.ndarray:
     return np.where(wsum > 0, c, at)
 
 
-def _band_slope(R: np.ndarray, t: np.ndarray, s: np.ndarray, T0: float) -> float:
-    """d(across)/d(along) of the band of marks: its centre across, in four chunks along."""
-    edges = np.linspace(s.min(), s.max(), 5).astype(int)
+def _band_slope(R: np.ndarray, t: np.ndarray, s: np.ndarray, T0: float, sign: float) -> float:
+    """d(across)/d(along) of the band of marks: its centre across, in four runs of ticks along.
+
+    Each row's weight is the lower quartile of its contrast at the ticks themselves: read at the
+    ticks (a matched filter), an edge crossing the strip (the member's, the ground's) does not sway
+    the centre, and the lower quartile is the shortest marks' (half or more of every rule's marks),
+    which every mark shares. A mean, or a median where half the marks are longer, would follow the
+    longer marks into the rows they reach, by more or less from place to place.
+    """
+    idx = np.clip(np.round(s).astype(int), 0, R.shape[1] - 1)
+    q = sign * _highpass(R.astype(np.float64), T0)[:, idx]           # (rows, ticks)
     mids, centres = [], []
-    for i0, i1 in zip(edges[:-1], edges[1:]):
-        chunk = R[:, i0:i1 + 1].astype(np.float64)
-        if chunk.shape[1] < 3 * T0:
+    for run in np.array_split(np.arange(len(s)), 4):
+        if len(run) < 3:
             continue
-        e = np.var(_highpass(chunk, T0), axis=1)
+        e = np.clip(np.percentile(q[:, run], 25, axis=1), 0.0, None)
+        if e.max() <= 0:
+            continue
         w = np.where(e >= 0.5 * e.max(), e, 0.0)
         centres.append(float((w * t).sum() / w.sum()))
-        mids.append(0.5 * (i0 + i1))
+        mids.append(float(s[run].mean()))
     if len(mids) < 2:
         return 0.0
     return float(np.polyfit(mids, centres, 1)[0])
@@ -638,49 +684,103 @@ def _finer_marks(prof: np.ndarray, params: np.ndarray, k: np.ndarray, T0: float)
 
 
 def _mark_levels(R: np.ndarray, prof: np.ndarray, s: np.ndarray, k: np.ndarray, r0: int, r1: int,
-                 T0: float) -> tuple[int | None, int | None]:
-    """Every how many ticks the longer marks fall: the first longer level and the longest.
+                 T0: float) -> tuple[tuple[int, ...], int]:
+    """Every how many ticks read each level of longer marks falls, shortest level first, and the
+    longest spacing a level could have been seen at.
 
-    Rows beyond the graduation band are read a few at a time, outward on both sides: where only
-    some marks reach, those marks' spacing (in ticks) is their level's.
+    Each group of a few rows across the strip, within the band of marks and beyond it, is read at
+    the ticks with the band's own polarity (so that past the rule's edge, where the blurred marks
+    show inverted, nothing is read). For each m the ticks are sorted into classes by k modulo m,
+    and each class's mean contrast taken (a mean over many marks stands out of the noise where a
+    single blurred mark does not). A group shows level m where one class stands out (its mean
+    more than six standard errors above zero and more than half the band's median contrast) and
+    every other class's mean is below 0.3 of it; the group's level is the largest such m (every
+    m/2-th tick also fits, its standing class diluted by marks that do not reach; every 2m-th
+    does not, two classes then standing out). A level counts where two or more groups show it.
+
+    The longest level seen is then split into every other mark, and the halves' mean contrasts
+    compared row by row: where they differ (by more than half the marks' peak contrast and six
+    standard errors, in three or more groups) every other one reaches further, and twice that
+    level is a level too. A level could have been seen where five or more of its marks lie in the
+    run read; above the longest level seen, only where the split shows no hint of a difference
+    (a quarter of the peak contrast and three standard errors, in two groups), had the power to
+    show one (half the peak contrast over the split's median standard error where the marks stand,
+    six or more), and those marks are seen to end within the rows read.
     """
-    q_band = max(float(np.median(_contrast_at(prof, s, T0))), 1e-9)
-    levels = []
-    win = max(3, (r1 - r0 + 1) // 2)
-    for side in (-1, 1):
-        start = r0 - 1 if side < 0 else r1 + 1
-        for off in range(0, len(R)):
-            a = start + side * off
-            rows = slice(min(a, a + side * (win - 1)), max(a, a + side * (win - 1)) + 1)
-            if rows.start < 0 or rows.stop > len(R):
-                break
-            q = _contrast_at(R[rows].mean(axis=0), s, T0) / q_band
-            tall = q > 0.5
-            if tall.sum() < 3 or tall.mean() > 0.6:
-                continue
-            gaps = np.diff(k[tall]).astype(int)
-            gaps = gaps[gaps > 0]
-            if not len(gaps):
-                continue
-            # The level's spacing: the smallest gap that most gaps are whole multiples of (a
-            # mark missed here and there doubles a gap, it does not change the level).
-            for m in np.unique(gaps[gaps >= 2]):
-                if np.mean(gaps % m == 0) >= 0.8:
-                    levels.append(int(m))
-                    break
-    # A level counts where two or more row groups agree on it (one group's stray marks do not).
-    vals, counts = np.unique(levels, return_counts=True) if levels else (np.array([]), np.array([]))
-    seen = vals[counts >= 2]
-    if not len(seen):
-        return None, None
-    return int(seen.min()), int(seen.max())
+    sign = _polarity(prof, T0)
+    idx = np.clip(np.round(s).astype(int), 0, R.shape[1] - 1)
+    q_band = float(np.median(sign * _highpass(prof, T0)[idx]))
+    if q_band <= 0:
+        return (), 0
+    win = max(2, (r1 - r0 + 1) // 4)
+    c = np.cumsum(np.vstack([np.zeros((1, R.shape[1])), R.astype(np.float64)]), axis=0)
+    con = sign * _highpass((c[win:] - c[:-win]) / win, T0)[:, idx] / q_band   # (row groups, ticks)
+    kk = np.round(k - k.min()).astype(int)
+    level = np.zeros(len(con), int)
+    which = np.zeros(len(con), int)
+    for m in range(2, min(64, len(k) // 3) + 1):
+        of = ((kk[None, :] % m) == np.arange(m)[:, None]).astype(np.float64)   # (classes, ticks)
+        n = of.sum(axis=1)
+        if n.min() < 3:
+            continue
+        mean = con @ of.T / n
+        var = np.maximum((con**2) @ of.T / n - mean**2, 0.0) * n / (n - 1)
+        r = np.argmax(mean, axis=1)
+        top = mean[np.arange(len(con)), r]
+        se = np.sqrt(var[np.arange(len(con)), r] / n[r])
+        rest = np.where(np.arange(m)[None, :] == r[:, None], -np.inf, mean).max(axis=1)
+        fits = (top > 0.5) & (top > 6.0 * se) & (rest < 0.3 * top)
+        level[fits], which[fits] = m, r[fits]
+    vals, counts = np.unique(level[level > 0], return_counts=True)
+    seen = tuple(int(v) for v in vals[counts >= 2])
+    # A level above the longest seen is ruled out only where it would have shown: five or more of
+    # its marks in the run read, and those longest marks seen to end within the rows read (where
+    # they run off the strip one may lie beyond).
+    tested = min(64, (int(np.ptp(kk)) + 1) // 5)
+    if not seen:
+        return seen, tested
+    M = seen[-1]
+    r = int(np.bincount(which[level == M]).argmax())
+    while 2 * M <= tested:
+        # Every other one of the longest marks reaching further is a level above, even where the
+        # class means above missed it (the shorter marks lingering in some rows).
+        cls = (kk % M) == r
+        other = ((kk[cls] - r) // M) % 2 == 1
+        a, b = con[:, cls][:, ~other], con[:, cls][:, other]
+        d = a.mean(axis=1) - b.mean(axis=1)
+        se = np.sqrt(a.var(axis=1, ddof=1) / a.shape[1] + b.var(axis=1, ddof=1) / b.shape[1]) + 1e-12
+        reach = con[:, cls].mean(axis=1)
+        split = (np.abs(d) > 0.5 * reach.max()) & (np.abs(d) > 6.0 * se)
+        if split.sum() >= 3:
+            r = r if d[split].mean() > 0 else r + M
+            M *= 2
+            seen = seen + (M,)
+            continue
+        # Not shown, but not ruled out either where a weaker difference shows, or where a split as
+        # large as half the marks' contrast would not stand six standard errors clear.
+        hint = (np.abs(d) > 0.25 * reach.max()) & (np.abs(d) > 3.0 * se)
+        power = 0.5 * reach.max() / np.median(se[reach > 0.5 * reach.max()])
+        if hint.sum() >= 2 or power < 6.0:
+            tested = min(tested, M)
+        break
+    reach = con[:, (kk % M) == r].mean(axis=1)
+    far = int(np.argmax(reach))
+    beyond = reach[far:] if far >= (r0 + r1) / 2 else reach[far::-1]
+    if not (beyond < 0.3 * reach[far]).any():
+        tested = min(tested, M)
+    return seen, tested
 
 
-def _contrast_at(prof: np.ndarray, s: np.ndarray, T0: float) -> np.ndarray:
-    """Each tick's contrast in a profile: how far it stands from its surroundings."""
-    q = _tick_signal(prof, T0)
-    idx = np.clip(np.round(s).astype(int), 0, len(q) - 1)
-    return q[idx]
+def _polarity(prof: np.ndarray, T0: float) -> float:
+    """+1 where the ticks are peaks of the high-passed profile, -1 where they are troughs (narrow
+    ticks make a skewed profile: dark ticks on a light rule give a long tail below).
+
+    The values are clipped at 4 robust standard deviations first: the steps to the ground beyond
+    the rule's ends are far stronger than the marks and would otherwise decide the sign.
+    """
+    hp = _highpass(np.asarray(prof, np.float64), T0)
+    lim = 4.0 * 1.4826 * float(np.median(np.abs(hp - np.median(hp)))) + 1e-12
+    return -1.0 if np.mean(np.clip(hp, -lim, lim) ** 3) < 0 else 1.0
 
 
 def _strip(R: np.ndarray, t: np.ndarray, r0: int, r1: int, s: np.ndarray, T0: float, origin: np.ndarray,

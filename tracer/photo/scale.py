@@ -212,8 +212,12 @@ def map_from_ruler(reading: Any, pitch: float, *, at_px: np.ndarray | None = Non
     The uncertainty carries the period fit (the projective model's covariance), the rule's own
     graduation tolerance (`ruler_class`, rectangular), and the one-sided allowance for an
     unknown tilt across the ruler of up to `max_tilt` degrees. The reading is of ideal pixels
-    where a lens profile undistorted the image points first (its caller's concern).
+    where a lens profile undistorted the image points first (its caller's concern). Where a
+    coarser graduation was read (the finest marks lost in blur; `reading` numbered in the finest
+    one), the fit is of those fewer marks, and its covariance says so; the record names the
+    graduation read (``graduation_read_mm``) and a warning says the finest marks were lost.
     """
+    from .graduation import graduation_note
     from .ruler import ruler_tolerance
 
     s0, s1 = reading.extent
@@ -227,11 +231,13 @@ def map_from_ruler(reading: Any, pitch: float, *, at_px: np.ndarray | None = Non
              ScaleError(tol / math.sqrt(3.0), distribution="rectangular", label=f"ruler graduation (class {ruler_class})"),
              TiltAllowance(max_tilt))
     ref = reading.origin + s_at * reading.direction
-    record = {"method": "ruler", **reading.record(), "pitch_mm": pitch, "period_px": T, "mm_per_px": s,
-              "scale_taken_at_px": ref.round(1).tolist(), "class": ruler_class,
-              "graduation_tolerance_percent": 100 * tol, "assumed_max_tilt_deg": max_tilt}
-    warn = [f"a ruler fixes the scale along its own direction only: an unknown tilt of up to {max_tilt:g} deg "
-            "across it is allowed for (--max-tilt changes it); a target, or a second ruler square to the first, removes it"]
+    graduation, notes = graduation_note(reading, pitch)
+    record = {"method": "ruler", **reading.record(), "pitch_mm": pitch, **graduation, "period_px": T,
+              "period_fit_u_percent": 100 * uT / T, "mm_per_px": s, "scale_taken_at_px": ref.round(1).tolist(),
+              "class": ruler_class, "graduation_tolerance_percent": 100 * tol, "assumed_max_tilt_deg": max_tilt}
+    warn = notes + [f"a ruler fixes the scale along its own direction only: an unknown tilt of up to {max_tilt:g} deg "
+                    "across it is allowed for (--max-tilt changes it); a target, or a second ruler square to the "
+                    "first, removes it"]
     span = s1 - s0
     if s_at < s0 - 0.25 * span or s_at > s1 + 0.25 * span:
         warn.append("the member lies beyond the end of the ruler's graduation; the scale there is extrapolated "
@@ -249,6 +255,7 @@ def map_from_two_rulers(r1: Any, r2: Any, pitch: float, *, ruler_class: str = "I
     of their angle, uniform within ±`square_deg` of a right angle; the rules' own graduation
     tolerance is added as a scale allowance.
     """
+    from .graduation import graduation_note
     from .ruler import ruler_tolerance, two_ruler_homography
 
     H = two_ruler_homography(r1, r2, pitch)
@@ -267,10 +274,13 @@ def map_from_two_rulers(r1: Any, r2: Any, pitch: float, *, ruler_class: str = "I
     tol = ruler_tolerance(pitch, used, ruler_class)
     comps = (HomographyError(H, cov, label="two rulers (fit, squareness)"),
              ScaleError(tol / math.sqrt(3.0), distribution="rectangular", label=f"ruler graduation (class {ruler_class})"))
-    record = {"method": "two rulers", "rulers": [r1.record(), r2.record()], "pitch_mm": pitch, "class": ruler_class,
-              "graduation_tolerance_percent": 100 * tol, "assumed_square_within_deg": square_deg}
-    warn = (f"two rulers found, taken as square to each other on the face (within ±{square_deg:g} deg): perspective "
-            "removed from both; lay them square (a framing square is best)",)
+    notes = [graduation_note(r, pitch) for r in (r1, r2)]
+    record = {"method": "two rulers", "rulers": [{**r.record(), **note[0]} for r, note in zip((r1, r2), notes)],
+              "pitch_mm": pitch, "class": ruler_class, "graduation_tolerance_percent": 100 * tol,
+              "assumed_square_within_deg": square_deg}
+    warn = tuple(w for note in notes for w in note[1]) + (
+        f"two rulers found, taken as square to each other on the face (within ±{square_deg:g} deg): perspective "
+        "removed from both; lay them square (a framing square is best)",)
     return PlaneMap(H=H, components=comps, record=record, keep_out=[r1.strip, r2.strip],
                     marks=np.vstack([r1.ticks_px, r2.ticks_px]), warnings=warn)
 
