@@ -183,6 +183,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         texture_px = max(2.0, 0.002 * float(np.hypot(*photo.shape)))
     smoothing = max(1.0, 0.25 * texture_px)
     bark = trace_ = None
+    checked = None                     # the segmentation and trace that the trace check judges
     if trace is not None:
         seg = None
         drawn = parse_trace(trace, "trace")
@@ -193,6 +194,9 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         seg = segment_member(photo, texture_px=texture_px, hints=hints, keep_out=plane.keep_out)
         trace_ = trace_boundary(seg, photo, plane, smoothing_px=smoothing)
         bark = find_bark(seg, photo)
+        # The check judges how the member was found: its whole face (the wood's edge under the
+        # bark is the bark finder's, with its own measures in the bark record).
+        checked = (seg, trace_)
         if under_bark and bark.seen:
             seg = replace(seg, mask=bark.wood)
             trace_ = None
@@ -259,7 +263,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
                                   f"of {_HAND_PX:g} px is in its uncertainty",))
         hint_record = {**hints.record(), "boundary": "hand-edited"}
     else:
-        check = check_trace(seg, trace)
+        check = check_trace(*checked)
         hint_record = hints.record()
         if under_bark:
             hint_record["under_bark"] = True
