@@ -158,7 +158,7 @@ def check_trace(seg: Segmentation, trace: Trace) -> TraceCheck:
 def _outside_not_ground(seg: Segmentation, trace: Trace) -> float:
     """The share of the outer outline (its normals, evened over about 15 of them) where the
     photo a little outside the edge (6 working pixels out) has a look that is rare in the
-    photo's border strip, the ground."""
+    photo's border strip, the ground, and is not of the ground's chromaticity (shade)."""
     import cv2
 
     prof = trace.profiles[0]
@@ -180,7 +180,10 @@ def _outside_not_ground(seg: Segmentation, trace: Trace) -> float:
     out = prof.points + prof.normals * (_OUT_WORKING * seg.working_step)
     cx = np.clip(np.round((out[:, 0] + 0.5) * w / W - 0.5).astype(int), 0, w - 1)
     cy = np.clip(np.round((out[:, 1] + 0.5) * h / H - 0.5).astype(int), 0, h - 1)
-    flags = rare[app.codes[cy, cx]].astype(np.float32) * ~refs[cy, cx]
+    flags = rare[app.codes[cy, cx]] & ~refs[cy, cx]
+    if seg.ground_colour is not None:
+        flags &= ~seg.ground_colour[cy, cx]             # the ground in shade is ground
+    flags = flags.astype(np.float32)
     n = len(flags)
     k = np.ones(min(n, 15), np.float32) / min(n, 15)
     even = np.convolve(np.concatenate([flags[-len(k):], flags, flags[:len(k)]]), k, mode="same")[len(k):-len(k)]
@@ -190,8 +193,9 @@ def _outside_not_ground(seg: Segmentation, trace: Trace) -> float:
 def _ground_tests(seg: Segmentation) -> tuple[float, float]:
     """Two comparisons that a right trace passes, on the working copy's colour and texture:
 
-    - surround: the ring round the face (3 to 10 px out) shares the looks of the photo's border
-      strip, the ground (palette histograms, their common share);
+    - surround: the ring round the face (3 to 10 px out) is the ground: of its chromaticity
+      (lit or in shade), or sharing the looks of the photo's border strip (palette histograms,
+      their common share);
     - inside: no large region deep inside the face looks more like that ring than like the
       face's outer band (2 to 6 px in), by Gaussian models of colour and texture: an opening
       taken for face shows the ground.
@@ -212,10 +216,20 @@ def _ground_tests(seg: Segmentation) -> tuple[float, float]:
     strip[:, :b] = strip[:, -b:] = True
     strip &= ~refs & ~region
     if not ring.any():
-        return 1.0, 0.0, 0.0
-    h_ring = np.bincount(app.codes[ring], minlength=K) / float(ring.sum())
+        return 1.0, 0.0
+    # Of the ring, what has the ground's chromaticity is ground (lit or in shade); the rest is
+    # compared by its looks.
+    shade = seg.ground_colour & ring if seg.ground_colour is not None else np.zeros_like(ring)
+    share = float(shade.sum()) / float(ring.sum())
+    rest = ring & ~shade
     h_strip = np.bincount(app.codes[strip], minlength=K) / max(float(strip.sum()), 1.0)
-    surround = float(np.minimum(h_ring, h_strip).sum()) if strip.any() else 1.0
+    if not strip.any():
+        surround = 1.0
+    elif rest.any():
+        h_ring = np.bincount(app.codes[rest], minlength=K) / float(rest.sum())
+        surround = share + (1 - share) * float(np.minimum(h_ring, h_strip).sum())
+    else:
+        surround = 1.0
     feats = np.dstack([app.lab, app.texture[..., None]]).astype(np.float32)
     solid = _fill(region)
     s8 = solid.astype(np.uint8)

@@ -57,6 +57,23 @@ _WORK_PIXELS = 60_000
 _OPENING_APART = 1.0
 # An opening is at least this share of the member's outline's area.
 _OPENING_SHARE = 0.03
+# Shade: the ground's chromaticity (in the pattern's units, 100 x the share) is told from grey
+# when this many of its spreads away from it; a pixel is the ground's within this many spreads
+# (spread floored).
+_SHADE_DISTINCT = 6.0
+_SHADE_SPREADS = 3.0
+_CHROMA_FLOOR = 0.4
+_SHADE_PALER = 0.3
+_SHADE_COS = 0.5
+# At least this share of the region is shade for a trim; what is left has this much edge support.
+_SHADE_LEAST = 0.05
+_SHADE_EDGE = 0.6
+_SHADE_EDGE_LOSS = 0.2
+# ... and the trim is not made where the region goes on round what is left along this share of it.
+_SHADE_ROUND = 0.75
+# ... nor where what is left holds less than this share of the region not of the ground's colour.
+_SHADE_KEEP = 0.5
+_CHROMATICITY_GREY = 100.0 / 3.0
 # Floor on a local model's feature variance.
 _MIN_VAR = 1.0
 # Window (Gaussian σ) of the texture measure on the working copy [px].
@@ -179,6 +196,9 @@ class Segmentation:
         Holes of the cut smaller than the texture size, filled.
     references : ndarray (h, w) bool
         The scale references (and transparent pixels) on the working copy.
+    ground_colour : ndarray (h, w) bool or None
+        Pixels of the working copy of the ground's chromaticity, lit or in shade (None against
+        a grey ground, where shade cannot be told by colour).
     """
 
     mask: np.ndarray = field(repr=False)
@@ -193,6 +213,7 @@ class Segmentation:
     appearance: Appearance = field(repr=False)
     filled_holes: int = 0
     references: np.ndarray | None = field(default=None, repr=False)
+    ground_colour: np.ndarray | None = field(default=None, repr=False)
 
     def rings_px(self) -> list[np.ndarray]:
         """The mask's boundary rings in full-size pixels (x, y), outer first then holes, each
@@ -246,13 +267,13 @@ def segment_member(photo, *, texture_px: float, hints: Hints = Hints(), keep_out
     else:
         cands = _candidates(ctx, hints)
         chosen, runner = _choose(ctx, cands, hints)
-        chosen = replace(chosen, mask=open_up(ctx, chosen.mask))
+        chosen = replace(chosen, mask=_shade_trim(ctx, open_up(ctx, chosen.mask)))
     mask, fine_step, origin, filled = _refine(photo, ctx, chosen.mask, hints)
     ordered = (chosen,) + tuple(c for c in cands if c is not chosen)
     sx, sy = ctx.scale
     return Segmentation(mask=mask, step=fine_step, origin=origin, shape=ctx.shape, candidates=ordered, chosen=chosen,
                         runner_up=runner, working_step=float(math.sqrt(sx * sy)), hints=hints, appearance=ctx.app,
-                        filled_holes=filled, references=ctx.refs)
+                        filled_holes=filled, references=ctx.refs, ground_colour=_ground_colour(ctx, chosen.mask))
 
 
 def _context(photo, texture_px: float, keep_out, hints: Hints) -> "_Context":
@@ -676,6 +697,77 @@ def open_up(ctx: "_Context", region: np.ndarray, *, keep: np.ndarray | None = No
     # The opening reaches out to the band's inner edge (its rim pixels were outside `deep`).
     opening = cv2.dilate(big[labels].astype(np.uint8), k3, iterations=6).astype(bool) & region & ~band
     return region & ~opening
+
+
+def _shade_trim(ctx: "_Context", region: np.ndarray, *, keep: np.ndarray | None = None) -> np.ndarray:
+    """The region less the ground, lit or in shade, that it took in (a cast shadow beside the
+    member, a tube's or box's bore, a lighter patch of sand): its parts of the ground's own
+    chromaticity (see :func:`_ground_colour`).
+
+    Only done where what is taken away does not lie all round what is left, and what is left is
+    outlined by strong edges, nearly as much as the region was (a member of the ground's own
+    colour stays whole)."""
+    import cv2
+
+    h, w = region.shape
+    like = _ground_colour(ctx, region)
+    if like is None:
+        return region
+    k3 = np.ones((3, 3), np.uint8)
+    # The outline's own pixels blend member and ground (a grey member's, paler ground): kept.
+    rim = region & ~(cv2.erode(region.astype(np.uint8), k3) > 0)
+    member = region & ~(like & ~rim)
+    if keep is not None:
+        member |= keep & region
+    if member.sum() > (1 - _SHADE_LEAST) * region.sum():
+        return region                                   # little or no ground taken in
+    opened = cv2.morphologyEx(member.astype(np.uint8), cv2.MORPH_OPEN, k3).astype(bool)
+    n, labels, stats, _ = cv2.connectedComponentsWithStats(opened.astype(np.uint8), connectivity=4)
+    if n < 2:
+        return region
+    out = labels == 1 + int(np.argmax(stats[1:, cv2.CC_STAT_AREA]))
+    # What is left is one piece holding most of what is not of the ground's colour (a thin
+    # member broken up by the trim is not trimmed).
+    if out.sum() < _SHADE_KEEP * (region & ~like).sum():
+        return region
+    # What was taken away lies beside what is left (a shadow) or inside it (a bore), not all
+    # round it: a ring of the ground's colour round the rest is the member's own (sapwood
+    # round heartwood).
+    solid = fill_holes(out, np.inf).astype(np.uint8)
+    ring = (cv2.dilate(solid, k3, iterations=3) > 0) & ~solid.astype(bool)
+    if (ring & region).sum() > _SHADE_ROUND * ring.sum():
+        return region
+    edge_out = _criteria(ctx, out)["edge"]
+    if out.sum() < _MIN_SHARE * h * w or edge_out < max(_SHADE_EDGE, _criteria(ctx, region)["edge"] - _SHADE_EDGE_LOSS):
+        return region
+    return out
+
+
+def _ground_colour(ctx: "_Context", region: np.ndarray) -> np.ndarray | None:
+    """Pixels of the ground's chromaticity (within a few of its spreads, from the border strip
+    outside `region`), or of one a little paler (shade lit by the sky is paler and bluer: moved
+    at most ``_SHADE_PALER`` of the way to grey, within 60 degrees of that way); None against a
+    grey ground (chromaticity near grey), where shade cannot be told so.
+
+    Chromaticity (each channel's share of the light) does not change with the light's strength,
+    so a shaded patch of sand, grass or decking keeps the ground's."""
+    h, w = region.shape
+    strip = _border_strip(h, w) & ~ctx.refs & ~region
+    if ctx.features is None or strip.sum() < 50 or not region.any():
+        return None
+    chroma = ctx.features[..., :2]
+    g = chroma[strip]
+    med = np.median(g, axis=0)
+    spread = np.maximum(1.4826 * np.median(np.abs(g - med), axis=0), _CHROMA_FLOOR)
+    grey = np.full(2, _CHROMATICITY_GREY, np.float32)
+    if float(np.sqrt(np.sum(((med - grey) / spread) ** 2))) < _SHADE_DISTINCT:
+        return None
+    v = grey - med
+    d = chroma - med
+    size = np.linalg.norm(d, axis=2)
+    towards = (d @ v) >= _SHADE_COS * size * float(np.linalg.norm(v))
+    return ((np.abs(d) <= _SHADE_SPREADS * spread).all(axis=2)
+            | (towards & (size <= _SHADE_PALER * float(np.linalg.norm(v)))))
 
 
 def nearer_model(feats: np.ndarray, where: np.ndarray, a: np.ndarray, b: np.ndarray, *,
