@@ -154,14 +154,9 @@ def find_bark(seg, photo) -> Bark:
 def _local_delta_e(lab: np.ndarray, a: np.ndarray, b: np.ndarray, reach: float) -> np.ndarray:
     """ΔE*ab between the mean colours of regions `a` and `b` near each pixel (normalised
     convolution over `reach` px); 0 where either is absent."""
-    import cv2
+    from .regions import local_mean
 
-    def local_mean(sel):
-        w = cv2.GaussianBlur(sel.astype(np.float32), (0, 0), reach)
-        m = cv2.GaussianBlur(lab * sel[..., None].astype(np.float32), (0, 0), reach)
-        return m / np.maximum(w, 1e-6)[..., None], w
-
-    ma, wa = local_mean(a)
-    mb, wb = local_mean(b)
+    ma, wa = local_mean(lab, a, reach)
+    mb, wb = local_mean(lab, b, reach)
     d = np.sqrt(np.square(ma - mb).sum(axis=2))
     return np.where((wa > 1e-3) & (wb > 1e-3), d, 0.0)

@@ -254,6 +254,42 @@ def pattern_features(light: np.ndarray, s: float) -> np.ndarray:
     return out
 
 
+def local_mean(values: np.ndarray, where: np.ndarray, reach: float) -> tuple[np.ndarray, np.ndarray]:
+    """The mean of `values` (h, w, c) over the pixels of `where` near each pixel: normalised
+    convolution by a Gaussian of σ = `reach` px [1]_, and its weight (the blurred `where`).
+
+    A wide Gaussian's result is smooth, so it is computed on a copy reduced by about a quarter
+    of σ (area averaging) and enlarged again (bilinear): the same to well within the colour
+    models' spread, at a small part of the cost.
+
+    References
+    ----------
+    .. [1] H. Knutsson and C.-F. Westin, "Normalized and differential convolution," *Proc. IEEE
+       Conf. Computer Vision and Pattern Recognition*, pp. 515-523, 1993.
+    """
+    import cv2
+
+    h, w = where.shape
+    f = max(1, int(reach // 4))
+    wt = where.astype(np.float32)
+    vals = values.astype(np.float32) * wt[..., None]
+    if f > 1:
+        size = (max(1, round(w / f)), max(1, round(h / f)))
+        wt = cv2.resize(wt, size, interpolation=cv2.INTER_AREA)
+        vals = cv2.resize(vals, size, interpolation=cv2.INTER_AREA)
+    sigma = reach * wt.shape[1] / w
+    wb = cv2.GaussianBlur(wt, (0, 0), sigma)
+    vb = cv2.GaussianBlur(vals, (0, 0), sigma)
+    if vb.ndim == 2:
+        vb = vb[..., None]
+    if f > 1:
+        wb = cv2.resize(wb, (w, h), interpolation=cv2.INTER_LINEAR)
+        vb = cv2.resize(vb, (w, h), interpolation=cv2.INTER_LINEAR)
+        if vb.ndim == 2:
+            vb = vb[..., None]
+    return vb / np.maximum(wb, 1e-6)[..., None], wb
+
+
 def _fit_palette(feats: np.ndarray, seed: int, size: int) -> np.ndarray:
     """k-means centres of a fixed random sample of the features (deterministic)."""
     import cv2
@@ -261,7 +297,11 @@ def _fit_palette(feats: np.ndarray, seed: int, size: int) -> np.ndarray:
     rng = np.random.default_rng(seed)
     n = len(feats)
     sample = feats[rng.choice(n, size=min(n, _PALETTE_SAMPLE), replace=False)] if n > _PALETTE_SAMPLE else feats
-    k = min(size, max(2, len(np.unique(sample.round(1), axis=0))))
+    # No more centres than distinct points (a flat image has few): counted on a part of the
+    # sample first, the whole only where that part has too few.
+    k = size
+    if len(np.unique(sample[:4 * size].round(1), axis=0)) < size:
+        k = min(size, max(2, len(np.unique(sample.round(1), axis=0))))
     cv2.setRNGSeed(seed)
     criteria = (cv2.TERM_CRITERIA_EPS + cv2.TERM_CRITERIA_MAX_ITER, 20, 0.2)
     _, _, centres = cv2.kmeans(np.ascontiguousarray(sample, np.float32), k, None, criteria, 1,

@@ -793,16 +793,15 @@ def local_costs(lab: np.ndarray, inner: np.ndarray, ring: np.ndarray, reach: flo
     CIELAB about the member's and the ground's mean colour near it (normalised convolution of
     `inner` and `ring` over `reach` px, so that shading, heartwood and sapwood, or a ground
     that changes along the member are followed), with one pooled spread."""
-    import cv2
+    from .regions import local_mean
 
-    def local_mean(sel: np.ndarray) -> np.ndarray:
-        w = cv2.GaussianBlur(sel.astype(np.float32), (0, 0), reach)
-        m = cv2.GaussianBlur(lab * sel[..., None].astype(np.float32), (0, 0), reach) / np.maximum(w, 1e-6)[..., None]
+    def near(sel: np.ndarray) -> np.ndarray:
+        m, w = local_mean(lab, sel, reach)
         whole = np.median(lab[sel], axis=0) if sel.any() else np.zeros(3, np.float32)
         return np.where((w > 1e-3)[..., None], m, whole).astype(np.float32)
 
-    mu_in = local_mean(inner)
-    mu_out = local_mean(ring)
+    mu_in = near(inner)
+    mu_out = near(ring)
     d_in = np.square(lab - mu_in).sum(axis=2)
     d_out = np.square(lab - mu_out).sum(axis=2)
     var = 0.5 * (float(np.median(d_in[inner])) if inner.any() else 1.0) + \
