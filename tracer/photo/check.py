@@ -47,7 +47,7 @@ THRESHOLDS = {
     "edge_support": (0.8, 0.95),           # share of the boundary on a clean step
     "score_gap": (0.35, 1.2),              # best candidate's score minus the runner-up's
     "inner_edges": (1.0, 0.6),             # smoothed inner edges' strength over the outline's
-    "hole_support": (0.7, 0.9),              # each hole's share on a clean step
+    "hole_support": (0.7, 0.9),             # each hole's share on a clean step
     "distinct": (0.45, 0.75),              # 1 - overlap of the face's and the ground's looks
     "border": (0.005, 0.0),                # share of the outline on the image frame
     "surround": (0.35, 0.6),               # the ring round the face: looks in common with the photo's edges
