@@ -30,25 +30,32 @@ NAMES = [n for n, _ in site_scenes()]
 
 #: Measured without a flag though beyond 3U today, each for a reason known and not yet mended:
 #: side faces traced with the end (joist-gravel-side, board-gravel), a leak into a dark mottled
-#: floor (ipe-chalk-dark-floor), a rusty angle's grey leg left out (angle-grass).
-KNOWN_SILENT = {"joist-gravel-side", "board-gravel", "ipe-chalk-dark-floor", "angle-grass"}
+#: floor (ipe-chalk-dark-floor).
+KNOWN_SILENT = {"joist-gravel-side", "board-gravel", "ipe-chalk-dark-floor"}
+#: Likewise with a seed on the member (a person's click): side faces (the two above, and a
+#: channel's painted side face on decking), an equal angle on wood chips and a tee on decking
+#: traced a few per cent short or long.
+KNOWN_SILENT_SEEDED = {"joist-gravel-side", "board-gravel", "channel-decking-side", "angle-equal-wood-chips",
+                       "tee-decking"}
 #: Measured within the goals today.
 KNOWN_GOOD = {"stud-grass", "stud-dark-floor", "post-light-card", "log-sand-side", "board-grass", "heb-light-card",
               "tee-paint-concrete", "tube-sand", "bar-bright-concrete"}
 
 
-def _one(index: int) -> dict:
+def _one(job: tuple[int, bool]) -> dict:
     import tempfile
     from pathlib import Path
 
+    index, seeded = job
     name, scene = site_scenes()[index]
     r = render(scene)
     truth = section_properties(r.section).values()
+    kw = {"seed": "{:.1f},{:.1f}".format(*r.member_point)} if seeded else {}
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / f"{name}.jpg"
         cv2.imwrite(str(path), r.image, [cv2.IMWRITE_JPEG_QUALITY, 92])
         try:
-            pm = measure_photo(path, target="9x6:15mm", accept_trace=True)
+            pm = measure_photo(path, target="9x6:15mm", accept_trace=True, **kw)
         except TracerError as e:
             return {"name": name, "outcome": "refused", "reason": str(e)}
     res = measure(pm.measurement, draws=300)
@@ -61,10 +68,19 @@ def _one(index: int) -> dict:
             "within": all(abs(err[k]) <= GOAL[k] for k in KEYS)}
 
 
+def _all(seeded: bool) -> dict:
+    with ProcessPoolExecutor(max_workers=2) as pool:
+        return {r["name"]: r for r in pool.map(_one, [(i, seeded) for i in range(len(NAMES))])}
+
+
 @pytest.fixture(scope="module")
 def rows() -> dict:
-    with ProcessPoolExecutor(max_workers=2) as pool:
-        return {r["name"]: r for r in pool.map(_one, range(len(NAMES)))}
+    return _all(False)
+
+
+@pytest.fixture(scope="module")
+def seeded_rows() -> dict:
+    return _all(True)
 
 
 def test_the_set_is_at_least_forty_renders_of_every_member_kind():
@@ -77,6 +93,13 @@ def test_the_set_is_at_least_forty_renders_of_every_member_kind():
 def test_no_new_error_goes_out_without_a_flag(rows):
     silent = {n for n, r in rows.items() if r["outcome"] == "measured" and r["beyond_3u"]}
     assert silent <= KNOWN_SILENT, f"new silent errors: {sorted(silent - KNOWN_SILENT)}"
+
+
+def test_with_a_seed_on_the_member_no_new_error_goes_out_without_a_flag(seeded_rows):
+    # The render's own point on the member, as a person's click would give it.
+    silent = {n for n, r in seeded_rows.items() if r["outcome"] == "measured" and r["beyond_3u"]}
+    assert silent <= KNOWN_SILENT_SEEDED, f"new silent errors: {sorted(silent - KNOWN_SILENT_SEEDED)}"
+    assert not any(r["outcome"] == "refused" for r in seeded_rows.values())
 
 
 def test_the_scenes_measured_within_the_goals_stay_so(rows):

@@ -37,7 +37,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .contour import Trace
-from .segment import GROUND_LIKE, Segmentation, nearer_model
+from .segment import Segmentation, nearer_model, neighbours
 
 __all__ = ["TraceCheck", "check_trace", "THRESHOLDS", "REVIEW_BELOW"]
 
@@ -53,12 +53,9 @@ THRESHOLDS = {
     "surround": (0.35, 0.6),               # the ring round the face: looks in common with the photo's edges
     "inside_ground": (0.05, 0.01),         # largest ground-like region inside the face, share of its area
     "outside": (0.12, 0.03),               # share of the outline whose outer side does not look like ground
-    "neighbours": (0.25, 0.05),            # area of credible regions overlapping or beside the face, share of it
+    "neighbours": (0.15, 0.03),            # area of credible regions overlapping or beside the face, share of it
+    "adjoining": (0.15, 0.05),             # area unlike the ground adjoining the face, share of it
 }
-# A candidate region counts as a credible neighbour with this much edge support (and not
-# looking like the ground), within this many working pixels of the face.
-_NEIGHBOUR_EDGE = 0.6
-_NEIGHBOUR_REACH = 5
 # How far outside the outline its outer side is looked at [px of the working copy].
 _OUT_WORKING = 6.0
 #: A trace whose confidence is below this needs review.
@@ -142,6 +139,9 @@ def check_trace(seg: Segmentation, trace: Trace) -> TraceCheck:
     distinct = seg.chosen.criteria["distinct"]
     judge("distinct", distinct, "the face hardly differs from the ground round it: it may be a part of a larger "
                                 "similar region")
+    adjoining = _adjoining(seg)
+    judge("adjoining", adjoining, f"something unlike the ground adjoins the face ({100 * adjoining:.0f} % of its area): "
+                                  "the member may go on there (a part of another colour, a side face)")
     near = _neighbours(seg)
     judge("neighbours", near, f"other regions on strong edges overlap or adjoin the face ({100 * near:.0f} % of its "
                               "area beyond it): the face may be one part of the member, or take in a part of another")
@@ -280,35 +280,57 @@ def _inner_edges(seg: Segmentation) -> float:
     return float(np.percentile(edge[inner], 98)) / max(on, 1e-6)
 
 
+def _adjoining(seg: Segmentation) -> float:
+    """The area, as a share of the face's, of what adjoins the face and does not look like the
+    ground: pixels of the working copy outside the face whose look is rare in the photo's border
+    strip and whose chromaticity is not the ground's (shade), cleaned of specks (an opening by a
+    3 x 3 square), in pieces that reach to within 2 px of the face's outline."""
+    import cv2
+
+    app = seg.appearance
+    face = seg.chosen.mask
+    h, w = face.shape
+    n = float(face.sum())
+    if n == 0:
+        return 0.0
+    refs = seg.references if seg.references is not None else np.zeros((h, w), bool)
+    solid = _fill(face)
+    b = max(2, int(round(0.03 * min(h, w))))
+    strip = np.zeros((h, w), bool)
+    strip[:b] = strip[-b:] = True
+    strip[:, :b] = strip[:, -b:] = True
+    strip &= ~refs & ~solid
+    if not strip.any():
+        return 0.0
+    share = np.bincount(app.codes[strip], minlength=app.n_looks) / float(strip.sum())
+    other = (share < 0.25 / app.n_looks)[app.codes] & ~refs & ~solid
+    if seg.ground_colour is not None:
+        other &= ~seg.ground_colour
+    k3 = np.ones((3, 3), np.uint8)
+    other = cv2.morphologyEx(other.astype(np.uint8), cv2.MORPH_OPEN, k3)
+    ring = cv2.dilate(solid.astype(np.uint8), k3, iterations=3).astype(bool) & ~solid
+    count, labels = cv2.connectedComponents(other, connectivity=8)
+    touching = np.unique(labels[ring & (labels > 0)])
+    return float(np.isin(labels, touching).sum()) / n if len(touching) else 0.0
+
+
 def _neighbours(seg: Segmentation) -> float:
-    """The largest area, as a share of the face's, that a credible other candidate (edge
-    support at least ``_NEIGHBOUR_EDGE``, not ground-like) overlapping the face or within
-    ``_NEIGHBOUR_REACH`` working pixels of it has beyond 2 px round the face; candidates
-    mostly in the face's openings, and those holding the whole face, left out."""
+    """The largest area, as a share of the face's, that a credible other region by the face
+    (:func:`~tracer.photo.segment.neighbours`, scale references left out) has beyond 2 px round
+    the face, cleaned of specks and threads (an opening by a 3 x 3 square)."""
     import cv2
 
     face = seg.chosen.mask
     n = float(face.sum())
     if n == 0:
         return 0.0
-    f8 = face.astype(np.uint8)
-    k = 2 * _NEIGHBOUR_REACH + 1
-    reach = cv2.dilate(f8, np.ones((k, k), np.uint8)).astype(bool)
-    near = cv2.dilate(f8, np.ones((5, 5), np.uint8)).astype(bool)
-    solid = _fill(face)
-    best = 0.0
-    for c in seg.candidates[1:]:
-        if (c.criteria["edge"] < _NEIGHBOUR_EDGE or c.criteria["ground_like"] >= GROUND_LIKE
-                or c.cut_off or c.reference is not None or not (c.mask & reach).any()):
-            continue
-        m = float(c.mask.sum())
-        # Not what lies in the face's openings (a bore's inner wall), nor a version of the face
-        # with more round it (those were weighed when the face was chosen).
-        if (c.mask & solid).sum() >= 0.5 * m or (_fill(c.mask) & face).sum() >= 0.9 * n:
-            continue
-        best = max(best, float((c.mask & ~near).sum()) / n)
-    return best
-
+    near = cv2.dilate(face.astype(np.uint8), np.ones((5, 5), np.uint8)).astype(bool)
+    others = [c for c in neighbours(face, seg.candidates[1:], seg.appearance, seg.references) if c.reference is None]
+    k3 = np.ones((3, 3), np.uint8)
+    # What lies beyond, opened by a 3 x 3 square: ground specks and threads along the face's edge
+    # (a ragged region grown from the edge into a mottled ground) are no part of a member.
+    beyond = [cv2.morphologyEx((c.mask & ~near).astype(np.uint8), cv2.MORPH_OPEN, k3) for c in others]
+    return max((float(b.sum()) / n for b in beyond), default=0.0)
 
 def _on_frame(trace: Trace, shape: tuple[int, int]) -> float:
     """Share of the outer ring's points within half a pixel of the image frame."""

@@ -76,7 +76,8 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
                   max_tilt: float = DEFAULT_MAX_TILT, texture: str | None = None,
                   name: str | None = None, lens: "str | Path | LensProfile | None" = None,
                   ruler: str | None = None, pitch: str | None = None, ruler_class: str = "II",
-                  under_bark: bool = False, trace: dict | None = None, accept_trace: bool = False) -> PhotoMeasurement:
+                  under_bark: bool = False, trace: dict | None = None, accept_trace: bool = False,
+                  loaded: Photo | None = None) -> PhotoMeasurement:
     """Measure the member in the photo at `path`.
 
     Parameters
@@ -121,6 +122,9 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         allowance in its uncertainty.
     accept_trace : bool
         Measure even where the trace check asks for review (the JSON then says so).
+    loaded : Photo, optional
+        The photo at `path` already read (:func:`~tracer.photo.load.load_photo`), so that a
+        caller measuring it again and again (the review page) reads it once.
 
     Raises
     ------
@@ -132,7 +136,7 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
         The trace check asks for review and `accept_trace` is not set (exit status 1).
     """
     hints = make_hints(seed, outside, box)
-    photo = load_photo(path)
+    photo = loaded if loaded is not None else load_photo(path)
     hints.check(*photo.shape[::-1])
     given = [k for k, v in (("--target", target), ("--scale", scale), ("--dpi", dpi), ("--ruler", ruler))
              if v is not None]

@@ -41,8 +41,8 @@ from .lookalike import reference_kind
 from .regions import CHROMA_WEIGHT as _CHROMA
 from .regions import Appearance, appearance, first_guess, grow_region, min_cut, region_costs
 
-__all__ = ["Candidate", "Segmentation", "segment_member", "local_costs", "fill_holes", "open_up", "nearer_model",
-           "SCORE_WEIGHTS", "WEAK_SCORE", "CLOSE_SCORE", "GROUND_LIKE"]
+__all__ = ["Candidate", "MemberUnclear", "Segmentation", "segment_member", "local_costs", "fill_holes", "open_up", "nearer_model",
+           "SCORE_WEIGHTS", "WEAK_SCORE", "CLOSE_SCORE", "GROUND_LIKE", "neighbours"]
 
 #: Weights of the candidate criteria in the score (each criterion 0 to 1).
 SCORE_WEIGHTS = {"size": 1.0, "solidity": 0.5, "edge": 1.5, "distinct": 1.5, "centre": 0.5}
@@ -109,6 +109,17 @@ _LEAK_SHARE = 0.3
 _MIN_SHARE_OF_HOLDER = 0.1
 # A region running off the photo along less than this share of the frame may be a member cut off.
 _CUT_OFF_FRAME = 0.2
+#: A candidate region counts as a credible neighbour of the chosen face with this much edge
+#: support, this distinct from what surrounds it, at most this ground-like, within this many
+#: working pixels of the face (see :func:`neighbours`).
+NEIGHBOUR_EDGE = 0.6
+NEIGHBOUR_DISTINCT = 0.6
+NEIGHBOUR_GROUND_LIKE = 0.6
+NEIGHBOUR_REACH = 5
+#: ... and their boundary away from the face on strong edges of its own along this share at least
+#: (a ragged region grown from the face's edge into the ground: 0.15 on a two-ruler render; a
+#: member's part past a patch of mill scale: 0.51).
+NEIGHBOUR_OWN_EDGE = 0.35
 #: A candidate that looks this much like the ground at the photo's edges (the share of its looks
 #: in common with theirs) is ground seen through or beside something, never the member.
 GROUND_LIKE = 0.6
@@ -164,6 +175,16 @@ class Candidate:
     def describe(self) -> str:
         return (f"at {self.centre[0]:.0f},{self.centre[1]:.0f} px (about {self.size[0]:.0f} x {self.size[1]:.0f} px, "
                 f"score {self.score:.2f})")
+
+
+class MemberUnclear(MeasurementError):
+    """No candidate stands out clearly, or two score close (exit status 1); `candidates` holds
+    the best few as (x, y, width, height, score), centre and size in full-size pixels, for a
+    person to pick one."""
+
+    def __init__(self, message: str, candidates: tuple) -> None:
+        super().__init__(message)
+        self.candidates = candidates
 
 
 @dataclass(frozen=True)
@@ -262,14 +283,21 @@ def segment_member(photo, *, texture_px: float, hints: Hints = Hints(), keep_out
     """
     ctx = _context(photo, texture_px, keep_out, hints)
     if hints.seeds:
-        cands = _seeded(ctx, hints)
-        chosen, runner = cands[0], None
+        chosen, runner = _seeded(ctx, hints)[0], None
+        # The regions an unattended search finds as well, for the trace check to weigh beside
+        # the one grown from the seeds (another part of the member it stopped short of).
+        cands = [chosen] + _candidates(ctx, replace(hints, seeds=()))
     else:
         cands = _candidates(ctx, hints)
         chosen, runner = _choose(ctx, cands, hints)
         chosen = replace(chosen, mask=_shade_trim(ctx, open_up(ctx, chosen.mask)))
     mask, fine_step, origin, filled = _refine(photo, ctx, chosen.mask, hints)
-    ordered = (chosen,) + tuple(c for c in cands if c is not chosen)
+    # Which credible regions by the chosen one are scale references (for the trace check).
+    near = set(map(id, neighbours(chosen.mask, [c for c in cands if c is not chosen])))
+    cands = [replace(c, reference=_reference(ctx, c.mask)) if id(c) in near and c.reference is None else c
+             for c in cands]
+    chosen = next((c for c in cands if c.mask is chosen.mask), chosen)
+    ordered = (chosen,) + tuple(c for c in cands if c.mask is not chosen.mask)
     sx, sy = ctx.scale
     return Segmentation(mask=mask, step=fine_step, origin=origin, shape=ctx.shape, candidates=ordered, chosen=chosen,
                         runner_up=runner, working_step=float(math.sqrt(sx * sy)), hints=hints, appearance=ctx.app,
@@ -382,6 +410,7 @@ def _seeded(ctx: _Context, hints: Hints) -> list[Candidate]:
         raise MeasurementError(f"--seed {pts} fall on separate regions; give points on one member, or a --box "
                                "round it")
     region = open_up(ctx, fill_holes(region, (2 * ctx.texture_px / ctx.scale[0]) ** 2), keep=base)
+    region = _shade_trim(ctx, region, keep=base)
     crit = _criteria(ctx, region)
     cand = _candidate(ctx, region, crit, "hint")
     if cand.cut_off:
@@ -587,9 +616,10 @@ def _choose(ctx: _Context, cands: list[Candidate], hints: Hints) -> tuple[Candid
     if weak or close:
         listed = "; ".join(c.describe() for c in whole[:4])
         why = "no candidate stands out clearly" if weak else "two candidates score close"
-        raise MeasurementError(f"the member could not be told from its surroundings unattended ({why}): candidates "
-                               f"{listed}; give --seed X,Y on the member (and --outside X,Y on the ground, or "
-                               "--box X0,Y0,X1,Y1 round it)")
+        raise MemberUnclear(f"the member could not be told from its surroundings unattended ({why}): candidates "
+                            f"{listed}; give --seed X,Y on the member (and --outside X,Y on the ground, or "
+                            "--box X0,Y0,X1,Y1 round it)",
+                            tuple((*c.centre, *c.size, c.score) for c in whole[:4]))
     return best, runner
 
 
@@ -725,7 +755,10 @@ def _shade_trim(ctx: "_Context", region: np.ndarray, *, keep: np.ndarray | None 
     n, labels, stats, _ = cv2.connectedComponentsWithStats(opened.astype(np.uint8), connectivity=4)
     if n < 2:
         return region
-    out = labels == 1 + int(np.argmax(stats[1:, cv2.CC_STAT_AREA]))
+    if keep is not None and (keep & opened).any():
+        out = np.isin(labels, np.unique(labels[keep & opened]))     # the piece the seeds are on
+    else:
+        out = labels == 1 + int(np.argmax(stats[1:, cv2.CC_STAT_AREA]))
     # What is left is one piece holding most of what is not of the ground's colour (a thin
     # member broken up by the trim is not trimmed).
     if out.sum() < _SHADE_KEEP * (region & ~like).sum():
@@ -810,6 +843,30 @@ def local_costs(lab: np.ndarray, inner: np.ndarray, ring: np.ndarray, reach: flo
     return (d_in / (2 * var)).astype(np.float32), (d_out / (2 * var)).astype(np.float32)
 
 
+def _on_strong_edges(app, region: np.ndarray, refs: np.ndarray | None, away: np.ndarray | None = None) -> float:
+    """The share of the region's boundary pixels (of those outside `away`, if given) that lie on
+    a strong edge: well above the edges of the texture round it (the ground's, or, for a region
+    cut out of a textured member, that member's), measured 3 to 7 px out, clear of the boundary's
+    own; the boundary's edge is the strongest within two pixels (a cut may sit a pixel or two off
+    the blurred edge's ridge)."""
+    import cv2
+
+    m8 = region.astype(np.uint8)
+    k3 = np.ones((3, 3), np.uint8)
+    ring = (cv2.dilate(m8, k3, iterations=7) > 0) & ~(cv2.dilate(m8, k3, iterations=2) > 0)
+    if refs is not None:
+        ring &= ~refs
+    boundary = (m8 - cv2.erode(m8, k3)) > 0
+    if away is not None:
+        boundary &= ~away
+    if not boundary.any():
+        return 0.0
+    e_out = float(np.median(app.edge[ring])) if ring.any() else 0.0
+    strong = 2.5 * max(e_out, 0.5)
+    ridge = cv2.dilate(app.edge, np.ones((5, 5), np.uint8))
+    return float(np.mean(ridge[boundary] > strong))
+
+
 def _criteria(ctx: _Context, region: np.ndarray) -> dict:
     """The scoring criteria of a region of the working copy, each 0 to 1, and its frame contact."""
     import cv2
@@ -825,15 +882,7 @@ def _criteria(ctx: _Context, region: np.ndarray) -> dict:
     solidity = min(1.0, float(filled.sum()) / max(hull + 0.5 * cv2.arcLength(c, True), 1.0))
     k3 = np.ones((3, 3), np.uint8)
     ring = (cv2.dilate(m8, k3, iterations=7) > 0) & ~(cv2.dilate(m8, k3, iterations=2) > 0) & ~ctx.refs
-    boundary = (m8 - cv2.erode(m8, k3)) > 0
-    # Strong: well above the edges of the texture round it (the ground's, or, for a region cut
-    # out of a textured member, that member's), measured clear of the boundary's own; the
-    # boundary's edge is the strongest within two pixels (a cut may sit a pixel or two off the
-    # blurred edge's ridge).
-    e_out = float(np.median(app.edge[ring])) if ring.any() else 0.0
-    strong = 2.5 * max(e_out, 0.5)
-    ridge = cv2.dilate(app.edge, np.ones((5, 5), np.uint8))
-    edge = float(np.mean(ridge[boundary] > strong)) if boundary.any() else 0.0
+    edge = _on_strong_edges(app, region, ctx.refs)
     K = app.n_looks
     if ring.any():
         hi = np.bincount(app.codes[region], minlength=K) + 0.5
@@ -897,6 +946,35 @@ def _nest(ctx: _Context, cands: list[Candidate]) -> list[Candidate]:
             out.append(replace(c, inside=min(holders, key=lambda j: sizes[j])))
         else:
             out.append(c)
+    return out
+
+
+def neighbours(face: np.ndarray, cands, app=None, refs: np.ndarray | None = None) -> list[Candidate]:
+    """The credible other regions by the face (working copy): whole candidates on strong edges,
+    distinct from what surrounds them and not ground-like (``NEIGHBOUR_*``), overlapping the face or within ``NEIGHBOUR_REACH``
+    pixels of it, neither mostly in its openings (a bore's inner wall) nor holding the whole
+    face (versions of it, weighed when it was chosen). Given the photo's `app` (an
+    :class:`~tracer.photo.regions.Appearance`), their boundary away from the face must be on
+    strong edges of its own too, not only where it runs along the face's (a ragged region grown
+    from the face's edge into the ground)."""
+    import cv2
+
+    n = float(face.sum())
+    if n == 0:
+        return []
+    k = 2 * NEIGHBOUR_REACH + 1
+    reach = cv2.dilate(face.astype(np.uint8), np.ones((k, k), np.uint8)).astype(bool)
+    solid = fill_holes(face, np.inf)
+    out = []
+    for c in cands:
+        if (c.criteria["edge"] < NEIGHBOUR_EDGE or c.criteria["distinct"] < NEIGHBOUR_DISTINCT
+                or c.criteria["ground_like"] >= NEIGHBOUR_GROUND_LIKE or c.cut_off or not (c.mask & reach).any()):
+            continue
+        if (c.mask & solid).sum() >= 0.5 * c.mask.sum() or (fill_holes(c.mask, np.inf) & face).sum() >= 0.9 * n:
+            continue
+        if app is not None and _on_strong_edges(app, c.mask, refs, away=reach) < NEIGHBOUR_OWN_EDGE:
+            continue
+        out.append(c)
     return out
 
 

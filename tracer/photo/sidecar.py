@@ -26,7 +26,7 @@ from ..errors import InputError
 from .hints import parse_box, parse_points
 
 __all__ = ["PhotoOption", "PHOTO_OPTIONS", "read_sidecar", "layer_options", "merge_options", "sidecar_path",
-           "parse_trace"]
+           "parse_trace", "read_sidecar_file"]
 
 _NOTES = ("notes",)                                  # text a sidecar may carry besides settings
 
@@ -134,7 +134,13 @@ def read_sidecar(photo: str | Path) -> tuple[dict[str, Any], str | None]:
         The sidecar is not readable TOML, names an unknown setting, or a value is malformed (the
         message names the key).
     """
-    side = sidecar_path(photo)
+    return read_sidecar_file(sidecar_path(photo))
+
+
+def read_sidecar_file(side: str | Path) -> tuple[dict[str, Any], str | None]:
+    """As :func:`read_sidecar`, from the sidecar file `side` itself (one kept in an output
+    folder); files it names are relative to its own folder."""
+    side = Path(side)
     if not side.is_file():
         return {}, None
     try:
