@@ -167,11 +167,7 @@ def _outside_not_ground(seg: Segmentation, trace: Trace) -> float:
     app = seg.appearance
     h, w = app.shape
     refs = seg.references if seg.references is not None else np.zeros((h, w), bool)
-    b = max(2, int(round(0.03 * min(h, w))))
-    strip = np.zeros((h, w), bool)
-    strip[:b] = strip[-b:] = True
-    strip[:, :b] = strip[:, -b:] = True
-    strip &= ~refs & ~seg.chosen.mask
+    strip = _border_strip((h, w), refs | seg.chosen.mask)
     if not strip.any():
         return 0.0
     share = np.bincount(app.codes[strip], minlength=app.n_looks) / float(strip.sum())
@@ -210,11 +206,7 @@ def _ground_tests(seg: Segmentation) -> tuple[float, float]:
     k3 = np.ones((3, 3), np.uint8)
     m8 = region.astype(np.uint8)
     ring = (cv2.dilate(m8, k3, iterations=10) > 0) & ~(cv2.dilate(m8, k3, iterations=3) > 0) & ~refs
-    b = max(2, int(round(0.03 * min(h, w))))
-    strip = np.zeros((h, w), bool)
-    strip[:b] = strip[-b:] = True
-    strip[:, :b] = strip[:, -b:] = True
-    strip &= ~refs & ~region
+    strip = _border_strip((h, w), refs | region)
     if not ring.any():
         return 1.0, 0.0
     # Of the ring, what has the ground's chromaticity is ground (lit or in shade); the rest is
@@ -280,6 +272,17 @@ def _inner_edges(seg: Segmentation) -> float:
     return float(np.percentile(edge[inner], 98)) / max(on, 1e-6)
 
 
+def _border_strip(shape: tuple[int, int], leave_out: np.ndarray) -> np.ndarray:
+    """The photo's border strip (3 % of its shorter side, at least 2 px), where the ground is
+    seen, without `leave_out` (the references and the face)."""
+    h, w = shape
+    b = max(2, int(round(0.03 * min(h, w))))
+    strip = np.zeros((h, w), bool)
+    strip[:b] = strip[-b:] = True
+    strip[:, :b] = strip[:, -b:] = True
+    return strip & ~leave_out
+
+
 def _adjoining(seg: Segmentation) -> float:
     """The area, as a share of the face's, of what adjoins the face and does not look like the
     ground: pixels of the working copy outside the face whose look is rare in the photo's border
@@ -295,11 +298,7 @@ def _adjoining(seg: Segmentation) -> float:
         return 0.0
     refs = seg.references if seg.references is not None else np.zeros((h, w), bool)
     solid = _fill(face)
-    b = max(2, int(round(0.03 * min(h, w))))
-    strip = np.zeros((h, w), bool)
-    strip[:b] = strip[-b:] = True
-    strip[:, :b] = strip[:, -b:] = True
-    strip &= ~refs & ~solid
+    strip = _border_strip((h, w), refs | solid)
     if not strip.any():
         return 0.0
     share = np.bincount(app.codes[strip], minlength=app.n_looks) / float(strip.sum())
