@@ -15,26 +15,18 @@ from __future__ import annotations
 
 import subprocess
 import sys
-import tempfile
 import time
 from pathlib import Path
 
 import cv2
 
-from timing import best
+from timing import best, twelve_megapixel_photo
 from tracer.photo.pipeline import measure_photo
-from tracer.photo.synth import Scene, render
 from tracer.result import measure
-from tracer.shapes import rectangle
 
 
 def main() -> None:
-    scene = Scene(section=rectangle(b=120.0, h=240.0, wane={"top_left": 25.0}, chord_angle=0.05).translated(60, -40),
-                  target=(9, 6, 15.0), target_at=(-150.0, -60.0), px_per_mm=8.6, tilt=6.0, blur=1.5, margin=30.0)
-    r = render(scene)
-    with tempfile.TemporaryDirectory() as d:
-        path = Path(d) / "photo.jpg"
-        cv2.imwrite(str(path), r.image, [cv2.IMWRITE_JPEG_QUALITY, 92])
+    with twelve_megapixel_photo() as (path, r):
         h, w = r.image.shape[:2]
 
         def ours():

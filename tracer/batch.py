@@ -44,7 +44,8 @@ from .photo.sidecar import merge_options as _merge
 from .photo.sidecar import read_sidecar as _sidecar
 
 __all__ = ["PhotoOption", "PHOTO_OPTIONS", "MANIFEST_COLUMNS", "REPORT_CHOICES", "INVENTORY_KEYS", "BatchItem",
-           "BatchProgress", "BatchSummary", "plan_batch", "run_batch", "rebuild_inventory", "safe_name"]
+           "BatchProgress", "BatchSummary", "plan_batch", "run_batch", "rebuild_inventory", "safe_name", "read_plan",
+           "to_review", "rerun"]
 
 
 #: The manifest's columns: ``path`` (required), ``name``, and any photo option.
@@ -284,6 +285,56 @@ def run_batch(source: str | Path, out: str | Path, *, defaults: dict[str, Any] |
     return BatchSummary(total=len(items), done=status.count("done"), skipped=skipped, failed=status.count("failed"),
                         not_run=status.count("not run"), elapsed=time.perf_counter() - t0, interrupted=interrupted,
                         out=out, inventory=inventory, index=index)
+
+
+def read_plan(out: str | Path) -> tuple[Path, dict[str, Any], list[BatchItem]]:
+    """The batch that wrote `out`: its source (found again), the lot's defaults, and its items
+    planned afresh (sidecars as they are now).
+
+    Raises
+    ------
+    InputError
+        `out` holds no ``batch.json``, or its source is no longer found.
+    """
+    out = Path(out)
+    plan = _read_json(out / _PLAN)
+    if plan is None or plan.get("schema") != PLAN_SCHEMA:
+        raise InputError(f"{out}: not a tracer batch output folder (no readable {_PLAN})")
+    given = Path(plan["source"])
+    # Relative to where the batch ran: here, or beside the output folder.
+    tries = [given] if given.is_absolute() else [given, out.resolve().parent / given, out.resolve().parent.parent / given]
+    source = next((t for t in tries if t.exists()), None)
+    if source is None:
+        raise InputError(f"{out}: the batch's source {given} is not found from here; run tracer review from the "
+                         "folder the batch ran in")
+    defaults = dict(plan.get("defaults") or {})
+    return source, {"defaults": defaults, "report": plan.get("report", "html")}, plan_batch(source, defaults=defaults,
+                                                                                             out=out)
+
+
+def to_review(out: str | Path) -> list[tuple[BatchItem, str]]:
+    """The photos of the batch in `out` that a person should look at, each with why: those that
+    failed (their reason) and those measured with a trace the check flagged and accepted unchecked."""
+    out = Path(out)
+    _, _, items = read_plan(out)
+    found = []
+    for it in items:
+        if it.kind != "photo":
+            continue
+        fail = _read_json(out / f"{it.name}.failed.json")
+        doc = _read_json(out / f"{it.name}.json")
+        if fail is not None:
+            found.append((it, f"failed: {fail.get('reason', '')}"))
+        elif doc is not None and (doc.get("source", {}).get("trace") or {}).get("needs_review"):
+            found.append((it, "measured with the trace accepted unchecked: the trace check asked for review"))
+    return found
+
+
+def rerun(out: str | Path) -> BatchSummary:
+    """Run the batch of `out` again as it was run (its source, defaults and report), one worker:
+    the members whose file or settings changed are measured again, and the inventory rebuilt."""
+    source, plan, _ = read_plan(out)
+    return run_batch(source, out, defaults=plan["defaults"], jobs=1, report=plan["report"])
 
 
 def rebuild_inventory(out: str | Path) -> tuple[Path, Path]:

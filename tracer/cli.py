@@ -51,6 +51,18 @@ exit status: 0 done, 1 input readable but not measurable, 2 bad usage or unreada
 Results are for screening only, not a design check.
 """
 
+_REVIEW_EPILOG = """\
+examples:
+  tracer review beam.jpg                      open the page on one photo (its sidecar read)
+  tracer review a.jpg b.jpg --target 9x6:15mm several photos, with a scale reference for all
+  tracer review site-out/                     walk the failed and flagged members of a batch
+  tracer review beam.jpg --no-browser         print the address only (the first line printed)
+
+The address carries a token that changes with every run; the page answers nothing without it.
+Ctrl-C stops the page; it also stops after --idle minutes without a request.
+exit status: 0 stopped, 2 bad usage or unreadable input.
+"""
+
 _CHECK_EPILOG = """\
 examples:
   tracer check joist.toml --material C24 --span 3.6m --support simple --udl 1.5kN/m
@@ -190,6 +202,33 @@ def _parser() -> argparse.ArgumentParser:
     m.add_argument("--debug", action="store_true", help="show the traceback of an error")
     m.set_defaults(command="measure", run=_measure)
 
+    r = sub.add_parser(
+        "review",
+        help="check and correct photo traces on a local page, and save what reproduces them",
+        description="Open a local page (127.0.0.1 only) showing each PHOTO with its trace, scale reference, trace "
+                    "check and A, I1, I2 with U. Click on the member, on the ground, drag a box, place two scale "
+                    "points, move the boundary's vertices; each change measures again. Save writes the photo's "
+                    "sidecar STEM.toml (so that tracer measure and tracer batch reproduce the trace), its result "
+                    "JSON and its report. Given a batch output folder, it walks the members that failed or need "
+                    "review, and saving one reruns its record and the inventory.",
+        epilog=_REVIEW_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    r.add_argument("inputs", metavar="PHOTO", nargs="+", help="photos of cut ends, or one batch output folder")
+    r.add_argument("--no-browser", action="store_true", help="print the address only; do not open a browser")
+    r.add_argument("--out", metavar="DIR", help="save sidecars, result JSON and reports here (default: beside each photo)")
+    r.add_argument("--port", type=int, default=0, metavar="N", help="listen on this port (default: a free one)")
+    r.add_argument("--idle", type=float, default=30.0, metavar="MINUTES",
+                   help="stop after this long without a request from the page (default 30)")
+    from .photo.sidecar import PHOTO_OPTIONS
+
+    r_photo = r.add_argument_group("photo options (over each photo's sidecar; the page can change them)")
+    for action in photo._group_actions:
+        if action.dest in PHOTO_OPTIONS:
+            r_photo._add_action(action)
+    r.add_argument("--debug", action="store_true", help="show the traceback of an error")
+    r.set_defaults(command="review", run=_review)
+
     d = sub.add_parser(
         "demo",
         help="measure a bundled sample photo (synthetic) and write its review picture",
@@ -263,7 +302,7 @@ def _parser() -> argparse.ArgumentParser:
     e.add_argument("--debug", action="store_true", help="show the traceback of an error")
     e.set_defaults(command="export", run=_export)
 
-    from .batch import PHOTO_OPTIONS, REPORT_CHOICES
+    from .batch import REPORT_CHOICES
 
     b = sub.add_parser(
         "batch",
@@ -457,6 +496,35 @@ def _measure(args: argparse.Namespace) -> int:
         print(format_table(result, units=args.units, budget=args.budget, characteristic=args.characteristic))
         for target, _ in outputs:
             print(f"\n  wrote {target}")
+    return 0
+
+
+def _review(args: argparse.Namespace) -> int:
+    from .errors import InputError
+    from .photo.sidecar import layer_options
+    from .review.launch import review_sessions
+    from .review.server import start_server
+
+    given = {k: getattr(args, k) for k in _PHOTO_KEYS if getattr(args, k, None) is not None}
+    options = layer_options(given, "the command line", Path.cwd())
+    out = Path(args.out) if args.out else None
+    if out is not None and not out.is_dir():
+        raise InputError(f"--out {out}: no such folder; create it first")
+    if args.idle <= 0:
+        raise InputError(f"--idle {args.idle:g}: give a positive number of minutes")
+    sessions, title = review_sessions(args.inputs, options, out)
+    server = start_server(sessions, port=args.port, title=title)
+    print(server.url, flush=True)
+    print(f"  reviewing {len(sessions)} photo(s); Ctrl-C stops the page", flush=True)
+    if not args.no_browser:
+        import webbrowser
+
+        webbrowser.open(server.url)
+    why = server.serve(idle=60.0 * args.idle)
+    if why == "idle":
+        print(f"  stopped: no request from the page for {args.idle:g} min", flush=True)
+    else:
+        print("  stopped", flush=True)
     return 0
 
 

@@ -306,9 +306,9 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
 def _review_message(path: Path, check: TraceCheck) -> str:
     """What to do when the trace check asks for review (one or two lines)."""
     return (f"{path.name}: the trace needs review (confidence {check.confidence:.2f}): " + "; ".join(check.reasons)
-            + ". Look at it with --overlay PNG, then give --seed X,Y on the member, --outside X,Y on the ground or "
-            "--box X0,Y0,X1,Y1 round it (or set them in the photo's sidecar), or accept it as it is with "
-            "--accept-trace")
+            + f". Check and correct it with tracer review {path.name} (or look with --overlay PNG, then give "
+            "--seed X,Y on the member, --outside X,Y on the ground or --box X0,Y0,X1,Y1 round it), or accept it "
+            "as it is with --accept-trace")
 
 
 def _parse_known(text: str) -> tuple[str, float]:
