@@ -145,3 +145,35 @@ def test_a_boundary_placed_by_hand_replaces_the_trace_with_its_allowance(tmp_pat
     assert doc["properties"]["A"]["value"] == pytest.approx(47 * 195, rel=0.003)
     inputs = [row["input"] for row in doc["uncertainty"]["budget"]["A"]]
     assert "hand-placed boundary, offset" in inputs
+
+
+def test_a_rough_outline_with_snap_finds_the_members_edge_near_it(tmp_path):
+    # A person's rough outline drawn round the face, its corners 4 and 6 px out by turns: with
+    # snap the edge is found in the photo near it. Truth: 47 x 195 mm (textbook rectangle).
+    photo, r = _joist(tmp_path, px_per_mm=5.0)
+    corners = [_px(r, p) for p in ((90, -30), (137, -30), (137, 165), (90, 165))]
+    centre = np.mean(corners, axis=0)
+    rough = [list(c + (5.0 + (-1) ** i) * (c - centre) / np.linalg.norm(c - centre)) for i, c in enumerate(corners)]
+    drawn = measure_photo(photo, target="9x6:15mm", trace={"points": rough})
+    snapped = measure_photo(photo, target="9x6:15mm", trace={"points": rough, "snap": True})
+    a_drawn = section_properties(drawn.measurement.section).A
+    a_snapped = section_properties(snapped.measurement.section).A
+    assert a_drawn / (47 * 195) - 1 > 0.015               # as drawn: about 2 % too large
+    assert abs(a_snapped / (47 * 195) - 1) < 0.005
+    assert snapped.measurement.source["trace"]["hints"]["boundary"] == "drawn by hand, snapped to the edge"
+    assert not snapped.check.needs_review
+
+
+def test_a_hand_boundary_placed_coarsely_carries_a_larger_allowance(tmp_path):
+    from tracer.result import measure
+
+    photo, r = _joist(tmp_path, px_per_mm=5.0)
+    outline = [list(_px(r, p)) for p in ((90, -30), (137, -30), (137, 165), (90, 165))]
+    fine = measure(measure_photo(photo, target="9x6:15mm", trace={"points": outline}).measurement, draws=400)
+    coarse = measure(measure_photo(photo, target="9x6:15mm",
+                                   trace={"points": outline, "allowance_px": 4.0}).measurement, draws=400)
+    # The offset allowance enters A as perimeter x offset: 8 times the default 0.5 px, so U of A
+    # grows several times over (the scale's share is the same in both).
+    assert coarse.u["A"] > 3 * fine.u["A"]
+    with pytest.raises(InputError, match="allowance_px"):
+        measure_photo(photo, target="9x6:15mm", trace={"points": outline, "allowance_px": -1})

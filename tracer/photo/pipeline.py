@@ -28,7 +28,7 @@ from .load import Photo, load_photo
 from .ruler import MIN_TICKS, RulerReading
 from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_ruler,
                     map_from_target, map_from_two_rulers, parse_target, parse_two_points)
-from .segment import Segmentation, segment_member
+from .segment import Segmentation, segment_member, segment_outline
 from .sidecar import parse_trace
 from .tone import to_light
 from .view import camera_view, image_side, side_faces
@@ -119,7 +119,8 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     trace : dict, optional
         A boundary edited by hand, ``{"points": [[x, y], ...], "holes": [[[x, y], ...]]}`` [px]
         (a sidecar's ``[trace]``): it replaces the automatic trace and carries a hand-placement
-        allowance in its uncertainty.
+        allowance in its uncertainty; with ``"snap": True`` it is a rough outline, and the
+        member's edge is found near it in the photo (with the edge's own uncertainty and check).
     accept_trace : bool
         Measure even where the trace check asks for review (the JSON then says so).
     loaded : Photo, optional
@@ -188,14 +189,19 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     smoothing = max(1.0, 0.25 * texture_px)
     bark = trace_ = None
     checked = None                     # the segmentation and trace that the trace check judges
-    if trace is not None:
+    drawn = parse_trace(trace, "trace") if trace is not None else None
+    if drawn is not None and not drawn["snap"]:
         seg = None
-        drawn = parse_trace(trace, "trace")
+        hand_px = max(_HAND_PX, drawn["allowance_px"] or 0.0)
 
         def retrace(plane_: PlaneMap) -> Trace:
-            return hand_trace(drawn["points"], drawn["holes"], plane_, allowance_px=_HAND_PX)
+            return hand_trace(drawn["points"], drawn["holes"], plane_, allowance_px=hand_px)
     else:
-        seg = segment_member(photo, texture_px=texture_px, hints=hints, keep_out=plane.keep_out)
+        if drawn is not None:                          # a rough outline: the edge found near it
+            seg = segment_outline(photo, drawn["points"], drawn["holes"], texture_px=texture_px,
+                                  keep_out=plane.keep_out)
+        else:
+            seg = segment_member(photo, texture_px=texture_px, hints=hints, keep_out=plane.keep_out)
         trace_ = trace_boundary(seg, photo, plane, smoothing_px=smoothing)
         bark = find_bark(seg, photo)
         # The check judges how the member was found: its whole face (the wood's edge under the
@@ -264,11 +270,13 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
     if seg is None:
         check = TraceCheck(confidence=1.0, needs_review=False, reasons=(),
                            notes=("the boundary was placed by hand (a sidecar's [trace]); a hand-placement allowance "
-                                  f"of {_HAND_PX:g} px is in its uncertainty",))
+                                  f"of {hand_px:g} px is in its uncertainty",))
         hint_record = {**hints.record(), "boundary": "hand-edited"}
     else:
         check = check_trace(*checked)
         hint_record = hints.record()
+        if drawn is not None:
+            hint_record = {"boundary": "drawn by hand, snapped to the edge"}
         if under_bark:
             hint_record["under_bark"] = True
     trace_record = check.record(hint_record, accepted=accept_trace)

@@ -41,7 +41,7 @@ from .lookalike import reference_kind
 from .regions import CHROMA_WEIGHT as _CHROMA
 from .regions import Appearance, appearance, first_guess, grow_region, min_cut, region_costs
 
-__all__ = ["Candidate", "MemberUnclear", "Segmentation", "segment_member", "local_costs", "fill_holes", "open_up", "nearer_model",
+__all__ = ["Candidate", "MemberUnclear", "Segmentation", "segment_member", "segment_outline", "local_costs", "fill_holes", "open_up", "nearer_model",
            "SCORE_WEIGHTS", "WEAK_SCORE", "CLOSE_SCORE", "GROUND_LIKE", "neighbours"]
 
 #: Weights of the candidate criteria in the score (each criterion 0 to 1).
@@ -623,6 +623,42 @@ def _choose(ctx: _Context, cands: list[Candidate], hints: Hints) -> tuple[Candid
     return best, runner
 
 
+def segment_outline(photo, points, holes=(), *, texture_px: float, keep_out=None) -> Segmentation:
+    """The member from a rough outline a person drew round it (image pixels; `holes` its
+    openings): the outline on the working copy, cut again at a finer step in a band round it, as
+    a found region is, so that the boundary lies on the member's own edge in the photo, within
+    about two working pixels of the drawn one.
+
+    Raises
+    ------
+    MeasurementError
+        The outline encloses nothing on the working copy, or no edge is found near it.
+    """
+    import cv2
+
+    hints = Hints()
+    ctx = _context(photo, texture_px, keep_out, hints)
+    h, w = ctx.app.shape
+    sx, sy = ctx.scale
+
+    def on_grid(ring) -> np.ndarray:
+        q = (np.asarray(ring, float) + 0.5) / (sx, sy) - 0.5
+        return np.round(q * 16).astype(np.int32)          # 4 fractional bits
+
+    canvas = np.zeros((h, w), np.uint8)
+    cv2.fillPoly(canvas, [on_grid(points)], 1, lineType=cv2.LINE_8, shift=4)
+    for hole in holes:
+        cv2.fillPoly(canvas, [on_grid(hole)], 0, lineType=cv2.LINE_8, shift=4)
+    region = canvas.astype(bool) & ~ctx.refs
+    if region.sum() < 4:
+        raise MeasurementError("the drawn outline encloses too little of the photo to find the member's edge in")
+    mask, fine_step, origin, filled = _refine(photo, ctx, region, hints)
+    cand = _candidate(ctx, region, _criteria(ctx, region), "outline")
+    return Segmentation(mask=mask, step=fine_step, origin=origin, shape=ctx.shape, candidates=(cand,), chosen=cand,
+                        runner_up=None, working_step=float(math.sqrt(sx * sy)), hints=hints, appearance=ctx.app,
+                        filled_holes=filled, references=ctx.refs, ground_colour=_ground_colour(ctx, region))
+
+
 def _refine(photo, ctx: _Context, region: np.ndarray, hints: Hints) -> tuple[np.ndarray, tuple, tuple, int]:
     """The chosen region cut again at a finer step in a band round its boundary."""
     import cv2
@@ -736,7 +772,8 @@ def _shade_trim(ctx: "_Context", region: np.ndarray, *, keep: np.ndarray | None 
 
     Only done where what is taken away does not lie all round what is left, and what is left is
     outlined by strong edges, nearly as much as the region was (a member of the ground's own
-    colour stays whole)."""
+    colour stays whole), and never where a point a person put on the member (`keep`) is of the
+    ground's colour (timber on timber decking)."""
     import cv2
 
     h, w = region.shape
@@ -746,6 +783,8 @@ def _shade_trim(ctx: "_Context", region: np.ndarray, *, keep: np.ndarray | None 
     k3 = np.ones((3, 3), np.uint8)
     # The outline's own pixels blend member and ground (a grey member's, paler ground): kept.
     rim = region & ~(cv2.erode(region.astype(np.uint8), k3) > 0)
+    if keep is not None and (keep & like & ~rim).any():
+        return region                                   # a person put a point on that colour: it is member
     member = region & ~(like & ~rim)
     if keep is not None:
         member |= keep & region

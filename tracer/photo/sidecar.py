@@ -8,6 +8,8 @@ A sidecar holds the photo options by their long names (``target = "6x4:10mm"``, 
     [trace]
     points = [[x, y], ...]          # the outline [px], replacing the automatic one
     holes = [[[x, y], ...], ...]    # its holes, if any
+    snap = true                     # a rough outline: the edge is found near it (default false)
+    allowance_px = 2.0              # how well the points were placed [px] (default 0.5)
 
 so that ``tracer measure``, ``tracer batch`` and a colleague's rerun reproduce a reviewed trace.
 Tables the tool does not know (``[truth]`` of the bundled samples) and ``notes`` are for people and
@@ -160,13 +162,24 @@ def read_sidecar_file(side: str | Path) -> tuple[dict[str, Any], str | None]:
 
 
 def parse_trace(table: Any, where: str) -> dict[str, list]:
-    """A hand-edited boundary ``{"points": [[x, y], ...], "holes": [[[x, y], ...], ...]}`` [px],
-    checked: at least three points a ring, numbers only."""
+    """A hand-edited boundary ``{"points": [[x, y], ...], "holes": [[[x, y], ...], ...], "snap":
+    false, "allowance_px": None}`` [px], checked: at least three points a ring, numbers only. With
+    ``snap = true`` the points are a rough outline and the member's edge is found near it in the
+    photo; ``allowance_px`` is how well they were placed (the review page writes the size of a
+    screen pixel at the zoom they were placed at), else the default hand-placement allowance."""
     if not isinstance(table, dict):
         raise InputError(f"{where}: trace must be a table [trace] with points = [[x, y], ...]")
-    unknown = set(table) - {"points", "holes"}
+    unknown = set(table) - {"points", "holes", "snap", "allowance_px"}
     if unknown:
-        raise InputError(f"{where}: [trace] has unknown key {sorted(unknown)[0]!r}; use points and holes")
+        raise InputError(f"{where}: [trace] has unknown key {sorted(unknown)[0]!r}; use points, holes, snap and "
+                         "allowance_px")
+    allowance = table.get("allowance_px")
+    if allowance is not None and (isinstance(allowance, bool) or not isinstance(allowance, (int, float))
+                                  or not math.isfinite(allowance) or allowance <= 0):
+        raise InputError(f"{where}: [trace] allowance_px = {allowance!r} must be a positive number of pixels")
+    snap = table.get("snap", False)
+    if not isinstance(snap, bool):
+        raise InputError(f"{where}: [trace] snap = {snap!r} must be true or false")
     if "points" not in table:
         raise InputError(f"{where}: [trace] needs points = [[x, y], ...] (the outline, image pixels)")
 
@@ -183,7 +196,8 @@ def parse_trace(table: Any, where: str) -> dict[str, list]:
     if not isinstance(holes, list):
         raise InputError(f"{where}: [trace] holes must be a list of rings [[[x, y], ...], ...]")
     return {"points": ring(table["points"], "points"),
-            "holes": [ring(h, f"hole {i}") for i, h in enumerate(holes, start=1)]}
+            "holes": [ring(h, f"hole {i}") for i, h in enumerate(holes, start=1)], "snap": snap,
+            "allowance_px": None if allowance is None else float(allowance)}
 
 
 def layer_options(raw: dict[str, Any], where: str, base: Path) -> dict[str, Any]:
