@@ -459,3 +459,97 @@ def test_the_page_fixes_a_flagged_trace_with_clicks_and_a_drag_then_saves_what_m
         value, U = shown[key]
         assert doc["properties"][key]["value"] == pytest.approx(value, rel=1e-9)
         assert 2 * doc["properties"][key]["u"] == pytest.approx(U, rel=1e-9)
+
+
+def test_the_page_draws_an_outline_by_clicks_with_the_allowance_of_its_zoom(tmp_path):
+    from selenium.webdriver.common.action_chains import ActionChains
+    import numpy as np
+    import shapely
+
+    path, member, truth = _site_render(tmp_path, "joist-concrete")
+    from tracer.photo.synth import render, site_scenes
+
+    r = render(dict(site_scenes())["joist-concrete"])
+    # The true outline in pixels by the renderer's own homography (a site scene's maps the
+    # section's frame), simplified to its corners, as a person clicks them.
+    ring = np.asarray(r.section.parts[0].exterior)
+    q = np.column_stack([ring, np.ones(len(ring))]) @ r.homography.T
+    corners = np.asarray(shapely.LinearRing(q[:, :2] / q[:, 2:]).simplify(1.0).coords)[:-1]
+    server = start_server([ReviewSession(path, options={"target": "9x6:15mm"})]).start()
+    d = _driver(tmp_path)
+    try:
+        d.get(server.url)
+        _settled(d)
+        d.find_element("css selector", "[data-mode=outline]").click()
+        for x, y in corners[:-1]:
+            _click_at(d, x, y)
+        sx, sy = d.execute_script("return window.tracerReview.toScreen(arguments[0], arguments[1])", *corners[-1])
+        svg = d.find_element("id", "canvas")
+        rect = svg.rect
+        ActionChains(d).move_to_element_with_offset(svg, sx - rect["x"] - rect["width"] / 2,
+                                                    sy - rect["y"] - rect["height"] / 2).double_click().perform()
+        res = _settled(d)
+        state = d.execute_script("return window.tracerReview.state()")
+        per_screen = d.execute_script("const s = document.getElementById('canvas'); "
+                                      "return s.viewBox.baseVal.width / s.getBoundingClientRect().width")
+    finally:
+        d.quit()
+        server.stop()
+    assert len(state["trace"]["points"]) == len(corners) and not state["trace"]["snap"]
+    assert state["trace"]["allowance_px"] == pytest.approx(max(0.5, per_screen), abs=0.01)
+    assert res["hand_edited"] and not res["check"]["needs_review"]
+    # Clicked at screen pixels (about one image pixel each here): A within 1 % of the render's own
+    # section (integrated by tracer.properties, itself checked against closed forms), and inside U.
+    A, U = res["values"]["A"]["value"], res["values"]["A"]["U"]
+    assert abs(A / truth["A"] - 1) < 0.01 and abs(A - truth["A"]) <= U
+
+
+def test_the_page_draws_a_tube_with_two_rims_of_five_clicks(tmp_path):
+    # A round rim seen at a slant is an ellipse in the photo: five clicks on it fix it exactly.
+    import numpy as np
+    from selenium.webdriver.common.action_chains import ActionChains
+    from selenium.webdriver.common.actions.wheel_input import ScrollOrigin
+
+    from tracer.photo.synth import render, site_scenes
+
+    path, member, truth = _site_render(tmp_path, "tube-sand")
+    r = render(dict(site_scenes())["tube-sand"])
+    rims = []
+    for ring in (r.section.parts[0].exterior, r.section.parts[0].holes[0]):
+        q = np.column_stack([np.asarray(ring), np.ones(len(ring))]) @ r.homography.T
+        q = q[:, :2] / q[:, 2:]
+        rims.append(q[np.linspace(0, len(q), 6)[:-1].astype(int)])       # five points round it
+    server = start_server([ReviewSession(path, options={"target": "9x6:15mm"})]).start()
+    d = _driver(tmp_path)
+    try:
+        d.get(server.url)
+        _settled(d)
+        # Zoomed in on the tube first (the wheel, about 1.8 times): a click is then about an image
+        # pixel, and the allowance that follows small (a thin wall wants it).
+        svg = d.find_element("id", "canvas")
+        sx, sy = d.execute_script("return window.tracerReview.toScreen(arguments[0], arguments[1])",
+                                  *rims[0].mean(axis=0))
+        rect = svg.rect
+        dx, dy = int(sx - rect["x"] - rect["width"] / 2), int(sy - rect["y"] - rect["height"] / 2)
+        # Dragged to the middle of the view (the pan tool), then the wheel there.
+        ActionChains(d).move_to_element_with_offset(svg, dx, dy).click_and_hold().move_by_offset(
+            -dx // 2, -dy // 2).move_by_offset(-dx + dx // 2, -dy + dy // 2).release().perform()
+        ActionChains(d).scroll_from_origin(ScrollOrigin.from_element(svg, 0, 0), 0, -400).perform()
+        d.find_element("css selector", "[data-mode=rim]").click()
+        for rim in rims:                               # the outer rim, then the bore's
+            for x, y in rim:
+                px, py = d.execute_script("return window.tracerReview.toScreen(arguments[0], arguments[1])", x, y)
+                assert rect["x"] < px < rect["x"] + rect["width"] and rect["y"] < py < rect["y"] + rect["height"]
+                _click_at(d, x, y)
+            _settled(d)
+        res = _settled(d)
+        state = d.execute_script("return window.tracerReview.state()")
+    finally:
+        d.quit()
+        server.stop()
+    assert len(state["trace"]["holes"]) == 1 and len(state["trace"]["points"]) >= 24
+    assert res["hand_edited"] and state["trace"]["allowance_px"] < 1.5
+    # Truth: the render's own tube (tracer.properties; closed forms in test_properties).
+    for key in ("A", "I1", "I2"):
+        value, U = res["values"][key]["value"], res["values"][key]["U"]
+        assert abs(value / truth[key] - 1) < 0.02 and abs(value - truth[key]) <= U, key

@@ -300,7 +300,9 @@ def sidecar_text(side: Path, state: dict[str, Any], *, label: str | None = None)
         out["accept_trace"] = True
     if state.get("trace"):
         t = state["trace"]
-        out["trace"] = {"points": t["points"], **({"holes": t["holes"]} if t.get("holes") else {})}
+        out["trace"] = {"points": t["points"], **({"holes": t["holes"]} if t.get("holes") else {}),
+                        **({"snap": True} if t.get("snap") else {}),
+                        **({"allowance_px": t["allowance_px"]} if t.get("allowance_px") else {})}
     out.update({k: v for k, v in kept.items() if isinstance(v, dict)})
     head = ("# Settings and hints that reproduce this photo's trace, saved by tracer review on "
             f"{time.strftime('%Y-%m-%d %H:%M')}.\n# tracer measure and tracer batch read them; the command line "

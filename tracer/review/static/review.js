@@ -23,6 +23,7 @@ let view = {x: 0, y: 0, w: 1, h: 1};
 let seq = 0, inflight = false, pending = null, fullTimer = null;
 let draft = null;           // a boundary being dragged, before it is committed
 let scalePts = [];          // the two scale points being placed
+let poly = [];              // an outline or hole being drawn, point by point
 
 // -- server ------------------------------------------------------------------------------------
 function url(path, params = {}) {
@@ -207,6 +208,12 @@ function draw() {
     el("path", {d: path([edited.points, ...(edited.holes || [])]), fill: "rgba(255,220,0,0.15)", stroke: "#ffdc00",
                 "stroke-width": 1.6, "vector-effect": "non-scaling-stroke", "fill-rule": "evenodd", id: "edited"});
   }
+  if (poly.length) {
+    el("polyline", {points: poly.map((p) => p.join(",")).join(" "), fill: "none", stroke: "#ffdc00",
+                    "stroke-width": 1.6, "stroke-dasharray": "4 3", "vector-effect": "non-scaling-stroke"});
+    poly.forEach((p) => el("circle", {cx: p[0], cy: p[1], r: 3 * s, fill: "#ffdc00", stroke: "#333",
+                                      "stroke-width": 1, "vector-effect": "non-scaling-stroke"}));
+  }
   if (mode === "edit") {
     const rings = editRings();
     rings.forEach((ring, ri) => ring.forEach((p, vi) => el("circle", {
@@ -236,6 +243,99 @@ function nearestVertex(x, y) {   // the vertex under the pointer (within 8 scree
     if (d < dmin) { dmin = d; best = [ri, vi]; }
   }));
   return best;
+}
+function withTrace(t) {     // a hand boundary carries how finely it was placed: a screen pixel at this zoom
+  const placed = Math.max(0.5, Math.round(pxPerScreen() * 100) / 100);
+  const before = (current.state.trace && current.state.trace.allowance_px) || 0;
+  return {trace: {points: t.points, holes: t.holes || [], snap: $("snap").checked,
+                  allowance_px: Math.max(placed, before)}};
+}
+function closePoly() {
+  if (poly.length < 3) { setStatus("an outline needs at least three points"); return; }
+  const ring = poly.map((p) => [Math.round(p[0] * 10) / 10, Math.round(p[1] * 10) / 10]);
+  poly = [];
+  if (mode === "hole") {
+    const base = editRings().length ? editableCopy() : null;
+    if (!base) { setStatus("draw or keep an outline first; a hole goes inside it"); return; }
+    base.holes.push(ring);
+    commit(withTrace(base));
+  } else {
+    commit(withTrace({points: ring, holes: []}));
+  }
+}
+function nearestScalePoint(x, y) {
+  let best = null, dmin = 8 * pxPerScreen();
+  scalePts.forEach((p, k) => { const d = Math.hypot(p[0] - x, p[1] - y); if (d < dmin) { dmin = d; best = k; } });
+  return best;
+}
+function solve(M, b) {     // Gaussian elimination with partial pivoting; null if singular
+  const n = b.length, A = M.map((row, i) => [...row, b[i]]);
+  for (let c = 0; c < n; c++) {
+    let p = c;
+    for (let r = c + 1; r < n; r++) if (Math.abs(A[r][c]) > Math.abs(A[p][c])) p = r;
+    if (Math.abs(A[p][c]) < 1e-12) return null;
+    [A[c], A[p]] = [A[p], A[c]];
+    for (let r = c + 1; r < n; r++) {
+      const f = A[r][c] / A[c][c];
+      for (let k = c; k <= n; k++) A[r][k] -= f * A[c][k];
+    }
+  }
+  const x = new Array(n).fill(0);
+  for (let r = n - 1; r >= 0; r--) {
+    let t = A[r][n];
+    for (let k = r + 1; k < n; k++) t -= A[r][k] * x[k];
+    x[r] = t / A[r][r];
+  }
+  return x;
+}
+function ellipseThrough(pts) {   // the ellipse through five rim points (a round rim seen at a slant), as a ring
+  const mx = pts.reduce((a, p) => a + p[0], 0) / pts.length, my = pts.reduce((a, p) => a + p[1], 0) / pts.length;
+  const sc = Math.sqrt(pts.reduce((a, p) => a + (p[0] - mx) ** 2 + (p[1] - my) ** 2, 0) / pts.length) || 1;
+  const q = pts.map((p) => [(p[0] - mx) / sc, (p[1] - my) / sc]);
+  // A u^2 + B uv + C v^2 + D u + E v = 1 through the five points
+  const co = solve(q.map(([u, v]) => [u * u, u * v, v * v, u, v]), [1, 1, 1, 1, 1]);
+  if (!co) return null;
+  const [A, B, C, D, E] = co, F = -1;
+  const det = 4 * A * C - B * B;
+  if (det <= 0) return null;                       // not an ellipse
+  const u0 = (B * E - 2 * C * D) / det, v0 = (B * D - 2 * A * E) / det;
+  const F0 = F + (D * u0 + E * v0) / 2;
+  const tr = (A + C) / 2, dif = Math.hypot((A - C) / 2, B / 2);
+  const l1 = tr + dif, l2 = tr - dif;              // eigenvalues of [[A, B/2], [B/2, C]]
+  if (-F0 / l1 <= 0 || -F0 / l2 <= 0) return null;
+  const a1 = Math.sqrt(-F0 / l1), a2 = Math.sqrt(-F0 / l2);
+  const phi = 0.5 * Math.atan2(B, A - C);          // the eigenvector of l1
+  const e1 = [Math.cos(phi), Math.sin(phi)], e2 = [-Math.sin(phi), Math.cos(phi)];
+  const big = Math.max(a1, a2) * sc;
+  const n = Math.max(24, Math.ceil(Math.PI / Math.acos(1 - 0.05 / Math.max(big, 1))));
+  const ring = [];
+  for (let k = 0; k < n; k++) {
+    const t = (2 * Math.PI * k) / n;
+    const u = u0 + a1 * Math.cos(t) * e1[0] + a2 * Math.sin(t) * e2[0];
+    const v = v0 + a1 * Math.cos(t) * e1[1] + a2 * Math.sin(t) * e2[1];
+    ring.push([Math.round((mx + sc * u) * 100) / 100, Math.round((my + sc * v) * 100) / 100]);
+  }
+  return {ring, centre: [mx + sc * u0, my + sc * v0]};
+}
+function insideRing(ring, x, y) {
+  let inside = false;
+  for (let i = 0, j = ring.length - 1; i < ring.length; j = i++) {
+    const [xi, yi] = ring[i], [xj, yj] = ring[j];
+    if ((yi > y) !== (yj > y) && x < ((xj - xi) * (y - yi)) / (yj - yi) + xi) inside = !inside;
+  }
+  return inside;
+}
+function closeRim() {
+  const e = ellipseThrough(poly);
+  poly = [];
+  if (!e) { setStatus("no ellipse passes through those points: click five points spread round the rim"); draw(); return; }
+  const {ring, centre: [cx, cy]} = e;
+  const t = current.state.trace;
+  if (t && insideRing(t.points, cx, cy)) {
+    commit(withTrace({points: t.points, holes: [...(t.holes || []), ring.reverse()]}));
+  } else {
+    commit(withTrace({points: ring, holes: []}));
+  }
 }
 function ringOf(t, ri) { return ri === 0 ? t.points : t.holes[ri - 1]; }
 function nearestSegment(t, x, y) {
@@ -318,6 +418,7 @@ function showSettings() {
   if (len) $("length").value = len[1];
   $("bark").checked = !!st.under_bark;
   $("accept").checked = !!st.accept;
+  if (st.trace) $("snap").checked = !!st.trace.snap;
   $("undo").disabled = !current.history.length;
   $("redo").disabled = !current.future.length;
   $("auto").disabled = !st.trace;
@@ -425,21 +526,20 @@ svg.addEventListener("pointerdown", (ev) => {
   svg.focus();
   const [x, y] = toImage(ev);
   press = {x, y, cx: ev.clientX, cy: ev.clientY, moved: false, button: ev.button, view: {...view}};
-  const t = ev.target;
   const near = mode === "edit" && ev.button === 0 ? nearestVertex(x, y) : null;
   if (near) {
     const [ri, vi] = near;
     if (ev.shiftKey) {
       const d = editableCopy();
       const ring = ringOf(d, ri);
-      if (ring.length > 3) { ring.splice(vi, 1); draft = null; commit({trace: d}); }
+      if (ring.length > 3) { ring.splice(vi, 1); draft = null; commit(withTrace(d)); }
       press = null;
       return;
     }
     draft = editableCopy();
     press.vertex = [ri, vi];
-  } else if (ev.button === 0 && mode === "scale" && t.classList.contains("scalept")) {
-    press.scalept = +t.dataset.k;
+  } else if (ev.button === 0 && mode === "scale" && nearestScalePoint(x, y) !== null) {
+    press.scalept = nearestScalePoint(x, y);
   } else if (ev.button === 0 && mode === "box") {
     press.box = true;
   }
@@ -475,7 +575,7 @@ svg.addEventListener("pointerup", (ev) => {
   const [x, y] = toImage(ev);
   const r = (v) => Math.round(v * 10) / 10;
   if (p.vertex) {
-    if (p.moved) { const d = draft; draft = null; commit({trace: d}); } else { draft = null; draw(); }
+    if (p.moved) { const d = draft; draft = null; commit(withTrace(d)); } else { draft = null; draw(); }
     return;
   }
   if (p.scalept !== undefined) {
@@ -490,6 +590,15 @@ svg.addEventListener("pointerup", (ev) => {
   if (p.moved || p.button !== 0) return;
   if (mode === "seed") commit({seed: [...(current.state.seed || []), [r(x), r(y)]]});
   else if (mode === "outside") commit({outside: [...(current.state.outside || []), [r(x), r(y)]]});
+  else if (mode === "rim") {
+    poly.push([x, y]);
+    if (poly.length === 5) closeRim(); else draw();
+  }
+  else if (mode === "outline" || mode === "hole") {
+    // A click on the first point closes the outline.
+    if (poly.length >= 3 && Math.hypot(poly[0][0] - x, poly[0][1] - y) < 8 * pxPerScreen()) closePoly();
+    else { poly.push([x, y]); draw(); }
+  }
   else if (mode === "scale") {
     if (scalePts.length < 2) scalePts.push([x, y]);
     else {
@@ -501,6 +610,12 @@ svg.addEventListener("pointerup", (ev) => {
   }
 });
 svg.addEventListener("dblclick", (ev) => {
+  if (mode === "outline" || mode === "hole") {
+    // the double-click's two clicks each added a point: they are the same point
+    if (poly.length > 1) poly.pop();
+    closePoly();
+    return;
+  }
   if (mode !== "edit") return;
   const [x, y] = toImage(ev);
   const d = editableCopy();
@@ -508,7 +623,7 @@ svg.addEventListener("dblclick", (ev) => {
   const near = nearestSegment(d, x, y);
   if (!near || near.d > 12 * pxPerScreen()) return;
   ringOf(d, near.ri).splice(near.i + 1, 0, near.p);
-  commit({trace: d});
+  commit(withTrace(d));
 });
 function commitScale() {
   const text = scaleText();
@@ -518,6 +633,7 @@ function commitScale() {
 
 // -- controls ------------------------------------------------------------------------------------
 function setMode(m) {
+  if (m !== mode) poly = [];
   mode = m;
   document.querySelectorAll("#tools [data-mode]").forEach((b) => b.classList.toggle("active", b.dataset.mode === m));
   svg.classList.toggle("pan", m === "pan");
@@ -543,6 +659,7 @@ $("dpi").onchange = () => commit(withScale("dpi", $("dpi").value.trim() ? Number
 $("length").onchange = () => commitScale();
 $("known").onchange = () => commit({known: $("known").value.trim() || null});
 $("bark").onchange = () => commit({under_bark: $("bark").checked});
+$("snap").onchange = () => { if (current.state.trace) commit({trace: {...current.state.trace, snap: $("snap").checked}}); };
 $("accept").onchange = () => commit({accept: $("accept").checked});
 $("photos").onchange = () => openPhoto(+$("photos").value);
 $("prev").onclick = () => openPhoto((current.index - 1 + photos.length) % photos.length);
@@ -570,7 +687,10 @@ document.addEventListener("keydown", (ev) => {
   const k = ev.key.toLowerCase();
   if ((ev.ctrlKey || ev.metaKey) && k === "z") { ev.preventDefault(); ev.shiftKey ? redo() : undo(); return; }
   if (ev.ctrlKey || ev.metaKey) return;
-  const modes = {m: "seed", g: "outside", b: "box", s: "scale", e: "edit", escape: "pan"};
+  const modes = {m: "seed", g: "outside", b: "box", s: "scale", e: "edit", o: "outline", h: "hole", r: "rim",
+                 escape: "pan"};
+  if ((mode === "outline" || mode === "hole") && k === "enter") { closePoly(); return; }
+  if ((mode === "outline" || mode === "hole") && k === "backspace") { ev.preventDefault(); poly.pop(); draw(); return; }
   if (modes[k]) setMode(modes[k]);
   else if (k === "z") undo();
   else if (k === "y") redo();
