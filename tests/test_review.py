@@ -553,3 +553,27 @@ def test_the_page_draws_a_tube_with_two_rims_of_five_clicks(tmp_path):
     for key in ("A", "I1", "I2"):
         value, U = res["values"][key]["value"], res["values"][key]["U"]
         assert abs(value / truth[key] - 1) < 0.02 and abs(value - truth[key]) <= U, key
+
+
+def test_weak_stretches_are_the_outline_off_a_clean_step_over_a_stretch():
+    # The trace check's own per-point edge support (trace.profiles[0].clean), evened over 15
+    # points: a run of 20 weak points (across the ring's start) is one stretch, lone weak points
+    # are none (counted independently here).
+    from types import SimpleNamespace
+
+    import numpy as np
+
+    from tracer.review.session import _weak_stretches
+
+    n = 200
+    pts = np.column_stack([np.arange(float(n)), np.zeros(n)])
+    clean = np.ones(n, bool)
+    clean[190:] = clean[:10] = False                   # 20 weak points wrapping round the start
+    clean[100] = clean[140] = False                    # lone ones
+    runs = _weak_stretches(SimpleNamespace(profiles=[SimpleNamespace(clean=clean, points=pts)]))
+    assert len(runs) == 1
+    xs = {int(p[0]) for p in runs[0]}
+    # Point i is weak where at least 8 of the 15 round it are: at the block's ends 8 of them, so
+    # the stretch is the block itself.
+    assert xs == set(range(190, 200)) | set(range(10))
+    assert _weak_stretches(SimpleNamespace(profiles=[SimpleNamespace(clean=np.ones(n, bool), points=pts)])) == []

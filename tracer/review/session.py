@@ -39,6 +39,9 @@ SHOWN = ("A", "I1", "I2", "Ix", "Iy", "cx", "cy", "theta")
 #: Simplification of the editable boundary [px]: few enough vertices to drag, within 1.5 px.
 _EDIT_TOLERANCE_PX = 1.5
 _EDIT_MAX_VERTICES = 240
+#: Weak stretches: the edge support evened over this many outline points; runs this long at least.
+_WEAK_EVEN = 15
+_WEAK_LEAST = 5
 
 
 @dataclass
@@ -205,6 +208,7 @@ class ReviewSession:
                            "unit": doc["properties"][k]["unit"]} for k in SHOWN if k in doc["properties"]},
             "rings": [np.round(r, 2).tolist() for r in pm.trace.rings_px],
             "editable": _editable(pm.trace.rings_px),
+            "weak": _weak_stretches(pm.trace) if pm.segmentation is not None else [],
             "hand_edited": "trace" in kw,
             "scale": _scale(pm.plane),
             "check": {"confidence": check.confidence, "needs_review": check.needs_review,
@@ -378,6 +382,27 @@ def _editable(rings: list[np.ndarray]) -> dict[str, Any]:
         if len(pts) >= 3:
             out.append(np.round(pts, 1).tolist())
     return {"points": out[0] if out else [], "holes": out[1:]}
+
+
+def _weak_stretches(trace: Any) -> list[list[list[float]]]:
+    """The stretches of the outline not on a clean step from member to ground (the trace check's
+    edge support, point by point, evened over ``_WEAK_EVEN`` points), as polylines [px] of at
+    least ``_WEAK_LEAST`` points, for the page to show where to look."""
+    prof = trace.profiles[0]
+    pts = np.asarray(prof.points, float)
+    weak = ~np.asarray(prof.clean, bool)
+    if len(pts) < 3 or not weak.any():
+        return []
+    # Evened over about 15 points, as the check evens its outside test: lone points off a clean
+    # step (a grain line meeting the edge) are no stretch to look at.
+    k = min(len(pts), _WEAK_EVEN)
+    padded = np.concatenate([weak[-k:], weak, weak[:k]]).astype(float)
+    clean = np.convolve(padded, np.ones(k) / k, mode="same")[k:-k] <= 0.5
+    # Runs of weak points, the ring rolled to start on a clean one (so no run wraps round).
+    order = np.roll(np.arange(len(pts)), -int(np.argmax(clean))) if clean.any() else np.arange(len(pts))
+    edges = np.diff(np.concatenate([[0], (~clean[order]).astype(np.int8), [0]]))
+    starts, ends = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+    return [np.round(pts[order[a:b]], 1).tolist() for a, b in zip(starts, ends) if b - a >= _WEAK_LEAST]
 
 
 def _scale(plane: Any) -> dict[str, Any]:

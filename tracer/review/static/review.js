@@ -173,6 +173,9 @@ function draw() {
       el("path", {d: path(res.rings), fill: "rgba(40,160,220,0.18)", stroke: "#16c0ff", "stroke-width": 1.6,
                   "vector-effect": "non-scaling-stroke", "fill-rule": "evenodd", id: "trace"});
     }
+    for (const w of res.weak || []) el("polyline", {points: w.map((p) => p.join(",")).join(" "), fill: "none",
+                                                    stroke: "#ff2d55", "stroke-width": 3, "stroke-dasharray": "5 3",
+                                                    "vector-effect": "non-scaling-stroke", class: "weak"});
     for (const m of res.scale.marks) drawCross(m[0], m[1], 4 * s, "#ffd400");
     const rec = res.scale.record || {};
     const axes = rec.axis_px ? [rec.axis_px] : (rec.rulers || []).map((r) => r.axis_px).filter(Boolean);
