@@ -28,51 +28,37 @@ from tracer.result import measure
 def main() -> None:
     with twelve_megapixel_photo() as (path, r):
         h, w = r.image.shape[:2]
-
-        def ours():
-            measure(measure_photo(path, target="9x6:15mm").measurement)
-
-        # Side by side: each timed in turn, five rounds, the best of each kept.
-        t_read, t_ours = [], []
-        for _ in range(5):
-            t_read.append(best(lambda: cv2.imread(str(path)), 2))
-            t_ours.append(best(ours, 2))
-        t_read, t_ours = min(t_read), min(t_ours)
-        print(f"photo of {w} x {h} = {w * h / 1e6:.1f} MP, JPEG")
-        print(f"  cv2.imread alone                 : {1e3 * t_read:6.0f} ms")
-        print(f"  tracer, whole path in-process    : {1e3 * t_ours:6.0f} ms")
-        print(f"  ratio                            : {t_ours / t_read:6.2f}   (goal <= 3)")
-        runs = []
-        for _ in range(2):
-            t0 = time.perf_counter()
-            subprocess.run([sys.executable, "-m", "tracer", "measure", str(path), "--target", "9x6:15mm"],
-                           check=True, stdout=subprocess.DEVNULL)
-            runs.append(time.perf_counter() - t0)
-        print(f"  tracer measure PHOTO, a process  : {min(runs):6.2f} s   (goal < 2 s)")
-    _real()
-
-
-def _real() -> None:
+        _side_by_side(f"photo of {w} x {h} = {w * h / 1e6:.1f} MP, JPEG", path, ["--target", "9x6:15mm"],
+                      dict(target="9x6:15mm"), goal="   (goal <= 3)", runs=2)
     real = next((Path(__file__).resolve().parents[1] / "tests" / "data" / "real-photos").glob("p14_*.jpg"))
-    img = cv2.imread(str(real))
-    h, w = img.shape[:2]
+    h, w = cv2.imread(str(real)).shape[:2]
+    _side_by_side(f"real photo {real.name}, {w} x {h} = {w * h / 1e6:.1f} MP, JPEG", real, ["--dpi", "25.4"],
+                  dict(dpi=25.4), goal="", runs=1)
+
+
+def _side_by_side(title: str, path: Path, args: list[str], kw: dict, *, goal: str, runs: int) -> None:
+    """cv2.imread of `path` and tracer's whole in-process path on it, each timed in turn, five
+    rounds, the best of each kept; then `tracer measure` as a process (the best of `runs`)."""
 
     def ours():
-        measure(measure_photo(real, dpi=25.4).measurement)
+        measure(measure_photo(path, **kw).measurement)
 
     t_read, t_ours = [], []
     for _ in range(5):
-        t_read.append(best(lambda: cv2.imread(str(real)), 2))
+        t_read.append(best(lambda: cv2.imread(str(path)), 2))
         t_ours.append(best(ours, 2))
     t_read, t_ours = min(t_read), min(t_ours)
-    print(f"real photo {real.name}, {w} x {h} = {w * h / 1e6:.1f} MP, JPEG")
+    print(title)
     print(f"  cv2.imread alone                 : {1e3 * t_read:6.0f} ms")
     print(f"  tracer, whole path in-process    : {1e3 * t_ours:6.0f} ms")
-    print(f"  ratio                            : {t_ours / t_read:6.2f}")
-    t0 = time.perf_counter()
-    subprocess.run([sys.executable, "-m", "tracer", "measure", str(real), "--dpi", "25.4"], check=True,
-                   stdout=subprocess.DEVNULL)
-    print(f"  tracer measure PHOTO, a process  : {time.perf_counter() - t0:6.2f} s   (goal < 2 s)")
+    print(f"  ratio                            : {t_ours / t_read:6.2f}{goal}")
+    times = []
+    for _ in range(runs):
+        t0 = time.perf_counter()
+        subprocess.run([sys.executable, "-m", "tracer", "measure", str(path), *args], check=True,
+                       stdout=subprocess.DEVNULL)
+        times.append(time.perf_counter() - t0)
+    print(f"  tracer measure PHOTO, a process  : {min(times):6.2f} s   (goal < 2 s)")
 
 
 if __name__ == "__main__":
