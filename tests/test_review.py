@@ -577,3 +577,40 @@ def test_weak_stretches_are_the_outline_off_a_clean_step_over_a_stretch():
     # the stretch is the block itself.
     assert xs == set(range(190, 200)) | set(range(10))
     assert _weak_stretches(SimpleNamespace(profiles=[SimpleNamespace(clean=np.ones(n, bool), points=pts)])) == []
+
+
+def test_the_page_takes_two_scale_points_and_their_distance_when_there_is_no_scale(channel, tmp_path):
+    # The bundled sample without its sidecar: no scale reference. Two points on the target's
+    # corners five squares apart (50 mm: the sample's 6 x 4 board of 10 mm squares) and their
+    # distance typed give the scale. Truth: the sample's [truth] A, the rendered section.
+    from selenium.webdriver.common.keys import Keys
+    from selenium.webdriver.support.ui import Select
+
+    from tracer.photo.pipeline import measure_photo
+
+    truth = tomllib.loads(channel.with_suffix(".toml").read_text())["truth"]
+    corners = measure_photo(channel, target="6x4:10mm").plane.marks     # row by row, 6 a row
+    a, b = corners[0], corners[5]
+    channel.with_suffix(".toml").unlink()
+    server = start_server([ReviewSession(channel)]).start()
+    d = _driver(tmp_path)
+    try:
+        d.get(server.url)
+        first = _settled(d)
+        assert not first["ok"] and "No scale reference yet" in d.find_element("id", "check").text
+        Select(d.find_element("id", "method")).select_by_value("scale")
+        _click_at(d, *a)
+        _click_at(d, *b)
+        d.find_element("id", "length").send_keys("50mm", Keys.TAB)
+        res = _settled(d)
+        state = d.execute_script("return window.tracerReview.state()")
+    finally:
+        d.quit()
+        server.stop()
+    assert state["scale"].endswith("=50mm") and res["ok"] and res["scale"]["method"] == "two points"
+    x1, y1, x2, y2 = map(float, state["scale"].split("=")[0].split(","))
+    assert abs(x1 - a[0]) < 2 and abs(y1 - a[1]) < 2 and abs(x2 - b[0]) < 2 and abs(y2 - b[1]) < 2
+    A, U = res["values"]["A"]["value"], res["values"]["A"]["U"]
+    # Two points fix no perspective (the sample's camera is tilted and off to one side, as its
+    # own warning says): A is some per cent off, and the tilt allowance's U covers it.
+    assert abs(A / truth["A"] - 1) < 0.08 and abs(A - truth["A"]) <= U
