@@ -614,3 +614,38 @@ def test_the_page_takes_two_scale_points_and_their_distance_when_there_is_no_sca
     # Two points fix no perspective (the sample's camera is tilted and off to one side, as its
     # own warning says): A is some per cent off, and the tilt allowance's U covers it.
     assert abs(A / truth["A"] - 1) < 0.08 and abs(A - truth["A"]) <= U
+
+
+def test_alt_drag_pulls_a_stretch_of_the_outline(channel, tmp_path):
+    # With Alt, the dragged vertex moves as far as the pointer and its neighbours along the ring
+    # follow less and less (a smooth bump); without it only the vertex moves (the test above).
+    import numpy as np
+    from selenium.webdriver.common.action_chains import ActionChains
+    from selenium.webdriver.common.keys import Keys
+
+    server = start_server([ReviewSession(channel)]).start()
+    d = _driver(tmp_path)
+    try:
+        d.get(server.url)
+        res = _settled(d)
+        pts = np.asarray(res["editable"]["points"])
+        k = int(np.argmin(pts[:, 0]))                     # a vertex on the web's outer (left) edge
+        d.find_element("css selector", "[data-mode=edit]").click()
+        sx, sy = d.execute_script("return window.tracerReview.toScreen(arguments[0], arguments[1])", *pts[k])
+        tx, _ = d.execute_script("return window.tracerReview.toScreen(arguments[0], arguments[1])",
+                                 pts[k][0] - 10, pts[k][1])
+        svg = d.find_element("id", "canvas")
+        rect = svg.rect
+        step = round(tx - sx)
+        (ActionChains(d).move_to_element_with_offset(svg, sx - rect["x"] - rect["width"] / 2,
+                                                     sy - rect["y"] - rect["height"] / 2)
+         .key_down(Keys.ALT).click_and_hold().move_by_offset(step // 2, 0).move_by_offset(step - step // 2, 0)
+         .release().key_up(Keys.ALT).perform())
+        _settled(d)
+        moved = np.asarray(d.execute_script("return window.tracerReview.state()")["trace"]["points"])
+    finally:
+        d.quit()
+        server.stop()
+    shift = np.hypot(*(moved - pts).T)
+    assert shift[k] == pytest.approx(10, abs=1.5)
+    assert (shift > 0.5).sum() >= 3 and (shift[np.arange(len(pts)) != k] < shift[k]).all()

@@ -340,6 +340,22 @@ function closeRim() {
     commit(withTrace({points: ring, holes: []}));
   }
 }
+const PULL_SCREEN_PX = 60;
+function pullWeights(ring, vi, reach) {   // 1 at vertex vi, falling smoothly to 0 at `reach` along the ring
+  const n = ring.length, w = new Array(n).fill(0);
+  w[vi] = 1;
+  for (const dir of [1, -1]) {
+    let arc = 0;
+    for (let k = 1; k < n / 2; k++) {
+      const a = ring[(vi + dir * (k - 1) + n) % n], b = ring[(vi + dir * k + n) % n];
+      arc += Math.hypot(b[0] - a[0], b[1] - a[1]);
+      if (arc >= reach) break;
+      const t = arc / reach;
+      w[(vi + dir * k + n) % n] = 0.5 * (1 + Math.cos(Math.PI * t));
+    }
+  }
+  return w;
+}
 function ringOf(t, ri) { return ri === 0 ? t.points : t.holes[ri - 1]; }
 function nearestSegment(t, x, y) {
   let best = null;
@@ -541,6 +557,11 @@ svg.addEventListener("pointerdown", (ev) => {
     }
     draft = editableCopy();
     press.vertex = [ri, vi];
+    // With Alt, a stretch is pulled: the vertices along the ring within PULL screen pixels of
+    // this one (by arc length) follow it, less the farther they are (a smooth bump).
+    const ring = ringOf(draft, ri);
+    press.origin = ring.map((p) => p.slice());
+    press.weights = ev.altKey ? pullWeights(ring, vi, PULL_SCREEN_PX * pxPerScreen()) : null;
   } else if (ev.button === 0 && mode === "scale" && nearestScalePoint(x, y) !== null) {
     press.scalept = nearestScalePoint(x, y);
   } else if (ev.button === 0 && mode === "box") {
@@ -554,7 +575,12 @@ svg.addEventListener("pointermove", (ev) => {
   if (!press.moved) return;
   const [x, y] = toImage(ev);
   if (press.vertex) {
-    ringOf(draft, press.vertex[0])[press.vertex[1]] = [x, y];
+    const ring = ringOf(draft, press.vertex[0]);
+    const [ox, oy] = press.origin[press.vertex[1]];
+    if (press.weights) {
+      press.origin.forEach((p, j) => { ring[j] = [p[0] + press.weights[j] * (x - ox), p[1] + press.weights[j] * (y - oy)]; });
+    }
+    ring[press.vertex[1]] = [x, y];
     draw();
   } else if (press.scalept !== undefined) {
     scalePts[press.scalept] = [x, y];
