@@ -65,11 +65,15 @@ def make_app(sessions: Sequence[ReviewSession], token: str, *, port_of: Callable
             raise _NotFound(f"no photo number {i}; this review has {len(sessions)}")
         return sessions[i]
 
-    def body() -> dict[str, Any]:
+    def body(flag: str) -> tuple[dict[str, Any], bool]:
+        """The request's JSON object: its ``state``, and `flag` (true or false, default false)."""
         doc = request.get_json(silent=True)
         if not isinstance(doc, dict):
             raise InputError("the request body must be a JSON object")
-        return doc
+        value = doc.get(flag, False)
+        if not isinstance(value, bool):
+            raise InputError(f"{flag} must be true or false")
+        return doc.get("state", {}), value
 
     @app.get("/")
     def page() -> Response:
@@ -111,19 +115,13 @@ def make_app(sessions: Sequence[ReviewSession], token: str, *, port_of: Callable
 
     @app.post("/api/photos/<int:i>/measure")
     def measure(i: int) -> Response:
-        doc = body()
-        full = doc.get("full", False)
-        if not isinstance(full, bool):
-            raise InputError("full must be true or false")
-        return jsonify(session(i).measure(doc.get("state", {}), full=full))
+        state, full = body("full")
+        return jsonify(session(i).measure(state, full=full))
 
     @app.post("/api/photos/<int:i>/save")
     def save(i: int) -> Response:
-        doc = body()
-        force = doc.get("force", False)
-        if not isinstance(force, bool):
-            raise InputError("force must be true or false")
-        answer = session(i).save(doc.get("state", {}), force=force)
+        state, force = body("force")
+        answer = session(i).save(state, force=force)
         return jsonify(answer), (409 if answer.get("conflict") else 200)
 
     @app.errorhandler(_NotFound)

@@ -382,24 +382,17 @@ function commit(change) {
   showSettings();
   remeasure();
 }
-function undo() {
-  if (!current.history.length) return;
-  current.future.push(clone(current.state));
-  current.state = current.history.pop();
+function step(from, to) {   // undo: from history to future; redo: the other way
+  if (!from.length) return;
+  to.push(clone(current.state));
+  current.state = from.pop();
   scalePts = pointsOfScale(current.state.scale);
   draft = null;
   showSettings();
   remeasure();
 }
-function redo() {
-  if (!current.future.length) return;
-  current.history.push(clone(current.state));
-  current.state = current.future.pop();
-  scalePts = pointsOfScale(current.state.scale);
-  draft = null;
-  showSettings();
-  remeasure();
-}
+function undo() { step(current.history, current.future); }
+function redo() { step(current.future, current.history); }
 const SCALE_KEYS = ["target", "scale", "ruler", "dpi"];
 function withScale(key, value) {   // one scale reference at a time
   const c = {};
