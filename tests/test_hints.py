@@ -154,7 +154,7 @@ def test_a_rough_outline_with_snap_finds_the_members_edge_near_it(tmp_path):
     corners = [_px(r, p) for p in ((90, -30), (137, -30), (137, 165), (90, 165))]
     centre = np.mean(corners, axis=0)
     rough = [list(c + (5.0 + (-1) ** i) * (c - centre) / np.linalg.norm(c - centre)) for i, c in enumerate(corners)]
-    drawn = measure_photo(photo, target="9x6:15mm", trace={"points": rough})
+    drawn = measure_photo(photo, target="9x6:15mm", trace={"points": rough}, accept_trace=True)
     snapped = measure_photo(photo, target="9x6:15mm", trace={"points": rough, "snap": True})
     a_drawn = section_properties(drawn.measurement.section).A
     a_snapped = section_properties(snapped.measurement.section).A
@@ -177,3 +177,32 @@ def test_a_hand_boundary_placed_coarsely_carries_a_larger_allowance(tmp_path):
     assert coarse.u["A"] > 3 * fine.u["A"]
     with pytest.raises(InputError, match="allowance_px"):
         measure_photo(photo, target="9x6:15mm", trace={"points": outline, "allowance_px": -1})
+
+
+def test_a_hand_boundary_off_the_photos_edge_is_flagged_and_one_on_it_is_not(tmp_path):
+    # A site render of an irregular log on grass (tracer.photo.synth, an invented member): its
+    # true outline, mapped by the renderer's homography, lies on the photo's edge; an ellipse
+    # through five points of it (a round rim drawn round an irregular log) strays off it.
+    import shapely
+
+    from tracer.photo.synth import site_scenes
+
+    r = render(dict(site_scenes())["log-grass"])
+    p = tmp_path / "log.jpg"
+    cv2.imwrite(str(p), r.image, [cv2.IMWRITE_JPEG_QUALITY, 92])
+    ring = np.asarray(r.section.parts[0].exterior)
+    q = np.column_stack([ring, np.ones(len(ring))]) @ r.homography.T
+    true = q[:, :2] / q[:, 2:]
+    c = true.mean(axis=0)
+    # The ellipse (here a circle) of the same area about the same centre: off the edge where
+    # the log is not round.
+    rad = np.sqrt(shapely.Polygon(true).area / np.pi)
+    t = np.linspace(0, 2 * np.pi, 180, endpoint=False)
+    circle = c + rad * np.column_stack([np.cos(t), np.sin(t)])
+    on = measure_photo(p, target="9x6:15mm", trace={"points": true.tolist(), "allowance_px": 1.5},
+                       accept_trace=True)
+    off = measure_photo(p, target="9x6:15mm", trace={"points": circle.tolist(), "allowance_px": 1.5},
+                        accept_trace=True)
+    assert not on.check.needs_review and off.check.needs_review
+    assert off.check.measures["on_the_edge"] < 0.6 < on.check.measures["on_the_edge"]
+    assert "placed by hand" in off.check.reasons[0]

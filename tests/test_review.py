@@ -429,7 +429,11 @@ def test_the_page_fixes_a_flagged_trace_with_clicks_and_a_drag_then_saves_what_m
         ActionChains(d).move_to_element(vertex).click_and_hold().move_by_offset(
             round(tx - sx) // 2, 0).move_by_offset(round(tx - sx) - round(tx - sx) // 2, 0).release().perform()
         dragged = _settled(d)
-        assert dragged["hand_edited"] and not dragged["check"]["needs_review"]
+        # A hand boundary is checked against the photo's edges (it follows the seeded trace's
+        # ragged stretch along the wane, the red dashes): its measure is shown with it.
+        flagged = dragged["check"]["needs_review"]
+        assert dragged["hand_edited"] and "on_the_edge" in dragged["check"]["measures"]
+        assert not flagged or "placed by hand" in " ".join(dragged["check"]["reasons"])
         # Against the same simplified boundary undragged, measured apart from the page: the
         # vertex moved about 6 px outwards, and A grew.
         undragged = ReviewSession(path, options={"target": "9x6:15mm"}).measure(
@@ -443,6 +447,10 @@ def test_the_page_fixes_a_flagged_trace_with_clicks_and_a_drag_then_saves_what_m
         assert not _settled(d)["hand_edited"]
         d.find_element("id", "redo").click()
         assert _settled(d)["values"]["A"]["value"] == dragged["values"]["A"]["value"]
+        if flagged:
+            d.find_element("id", "accept").click()        # looked at, and accepted
+            accepted = _settled(d)
+            assert accepted["accepted"] and _shown(d) == shown      # acceptance changes no number
         d.find_element("id", "save").click()
         t0 = time.monotonic()
         while "wrote" not in d.find_element("id", "saved").text and time.monotonic() - t0 < 120:
@@ -453,6 +461,7 @@ def test_the_page_fixes_a_flagged_trace_with_clicks_and_a_drag_then_saves_what_m
         server.stop()
     side = tomllib.loads(path.with_suffix(".toml").read_text())
     assert side["target"] == "9x6:15mm" and len(side["trace"]["points"]) == len(pts)
+    assert side.get("accept_trace", False) == flagged
     code, doc = _measure_cli(path)
     assert code == 0, doc
     for key in ("A", "I1", "I2"):

@@ -39,7 +39,7 @@ import numpy as np
 from .contour import Trace
 from .segment import Segmentation, nearer_model, neighbours
 
-__all__ = ["TraceCheck", "check_trace", "THRESHOLDS", "REVIEW_BELOW"]
+__all__ = ["TraceCheck", "check_trace", "check_hand", "THRESHOLDS", "REVIEW_BELOW"]
 
 #: Each criterion's threshold (past it the trace needs review) and the value at which it is
 #: comfortably met (its factor 1), in the criterion's own units.
@@ -55,6 +55,7 @@ THRESHOLDS = {
     "outside": (0.12, 0.03),               # share of the outline whose outer side does not look like ground
     "neighbours": (0.15, 0.03),            # area of credible regions overlapping or beside the face, share of it
     "adjoining": (0.15, 0.05),             # area unlike the ground adjoining the face, share of it
+    "on_the_edge": (0.6, 0.9),             # a hand boundary: share of it on a clean edge of the photo
 }
 # How far outside the outline its outer side is looked at [px of the working copy].
 _OUT_WORKING = 6.0
@@ -95,6 +96,21 @@ class TraceCheck:
         if self.notes:
             out["notes"] = list(self.notes)
         return out
+
+
+def check_hand(on_edge: float, within_px: float, note: str) -> TraceCheck:
+    """The check of a boundary placed by hand: how much of it lies on a clean edge of the photo
+    within `within_px` (:func:`~tracer.photo.contour.on_the_edge`). A person may place it where
+    no edge shows (then they accept it); elsewhere, off the edge means drawn carelessly."""
+    bad, good = THRESHOLDS["on_the_edge"]
+    confidence = min(1.0, max(0.0, 0.5 + 0.5 * (on_edge - bad) / (good - bad)))
+    reasons = []
+    if on_edge < bad:
+        reasons.append(f"the boundary placed by hand lies on a clean edge of the photo along only {100 * on_edge:.0f} % "
+                       f"of its length (within {within_px:.1f} px): check it against the photo, or accept it where "
+                       "the edge does not show")
+    return TraceCheck(confidence=confidence, needs_review=bool(reasons), reasons=tuple(reasons),
+                      measures={"on_the_edge": on_edge}, notes=(note,))
 
 
 def check_trace(seg: Segmentation, trace: Trace) -> TraceCheck:

@@ -40,7 +40,7 @@ from ..geometry import Section
 from .scale import PlaneMap
 from .segment import Segmentation
 
-__all__ = ["Trace", "trace_boundary", "hand_trace", "coarser_section", "EdgeProfiles"]
+__all__ = ["on_the_edge", "Trace", "trace_boundary", "hand_trace", "coarser_section", "EdgeProfiles"]
 
 # Simplification tolerance of the pixel rings [px].
 _SIMPLIFY_PX = 0.1
@@ -199,6 +199,20 @@ def hand_trace(points: list, holes: list, plane: PlaneMap, *, allowance_px: floa
     edge = {"offset_px": allowance_px, "scatter_px": allowance_px, "correlation_px": 0.0, "mm_per_px": s,
             "offset_mm": allowance_px * s, "scatter_mm": allowance_px * s, "correlation_mm": 0.0}
     return Trace(section=section, rings_px=[outer] + rings, edge=edge, pixel_check={}, profiles=[])
+
+
+def on_the_edge(photo, rings_px: list, within_px: float) -> float:
+    """The share of a boundary placed by hand (all its rings, by length) that lies on an edge of
+    the photo: where the normals find a clean step from member to ground within `within_px` of
+    it. A careless outline (an ellipse round an irregular log, a corner clicked off) scores low."""
+    reach = float(math.ceil(within_px + 4.0))
+    near = []
+    for i, ring in enumerate(rings_px):
+        pts, normals = _normals(np.asarray(ring, float), outward_is_left=(i > 0))
+        prof = _read_profiles(photo, pts, normals, reach)
+        near.append(prof.clean & (np.abs(prof.offset) <= within_px))
+    allpts = np.concatenate(near) if near else np.zeros(0, bool)
+    return float(allpts.mean()) if len(allpts) else 0.0
 
 
 def coarser_section(trace: Trace, plane: PlaneMap, tolerance_px: float) -> Section:

@@ -19,8 +19,8 @@ from ..measurement import Measurement
 from ..uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError, TiltAllowance
 from ..units import parse_length
 from .bark import find_bark
-from .check import TraceCheck, check_trace
-from .contour import Trace, coarser_section, hand_trace, trace_boundary
+from .check import TraceCheck, check_hand, check_trace
+from .contour import Trace, coarser_section, hand_trace, on_the_edge, trace_boundary
 from .graduation import graduation_read
 from .hints import Hints, make_hints
 from .lens import LensProfile, read_profile
@@ -48,6 +48,10 @@ _MC_SIMPLIFY_PX = 0.5
 # The allowance of a boundary placed by hand [px]: a person clicking on a zoomed photo puts a point
 # within about half a pixel of the edge they see (common practice).
 _HAND_PX = 0.5
+# A hand boundary is on the photo's edge where a clean step lies within this many times its
+# allowance (at least this many px) of it.
+_ON_EDGE_TIMES = 3.0
+_ON_EDGE_LEAST_PX = 2.0
 
 
 @dataclass(frozen=True)
@@ -268,9 +272,10 @@ def measure_photo(path: str | Path, *, target: str | None = None, scale: str | N
             plane.record["side_faces"] = seen
             warnings.append(_side_face_warning(seen))
     if seg is None:
-        check = TraceCheck(confidence=1.0, needs_review=False, reasons=(),
-                           notes=("the boundary was placed by hand (a sidecar's [trace]); a hand-placement allowance "
-                                  f"of {hand_px:g} px is in its uncertainty",))
+        within = max(_ON_EDGE_LEAST_PX, _ON_EDGE_TIMES * hand_px)
+        check = check_hand(on_the_edge(photo, trace.rings_px, within), within,
+                           "the boundary was placed by hand (a sidecar's [trace]); a hand-placement allowance "
+                           f"of {hand_px:g} px is in its uncertainty")
         hint_record = {**hints.record(), "boundary": "hand-edited"}
     else:
         check = check_trace(*checked)

@@ -212,7 +212,7 @@ class ReviewSession:
             "hand_edited": "trace" in kw,
             "scale": _scale(pm.plane),
             "check": {"confidence": check.confidence, "needs_review": check.needs_review,
-                      "reasons": list(check.reasons)},
+                      "reasons": list(check.reasons), "measures": dict(check.measures)},
             "accepted": accepted,
             "candidates": _candidates(pm.segmentation),
             "bark": pm.measurement.source["trace"].get("bark"),
