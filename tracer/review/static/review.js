@@ -485,7 +485,9 @@ function fmt(v, U) {
   const d = Math.max(0, -e);
   return `${v.toFixed(d)} ± ${U.toFixed(d)}`;
 }
+let shownCount = 0;          // answers drawn so far (for tests and the browser benchmark)
 function show(photo) {
+  shownCount += 1;
   const res = photo.result;
   const body = $("numbers").querySelector("tbody");
   body.textContent = "";
@@ -729,6 +731,7 @@ window.tracerReview = {
   busy: () => inflight || !!pending || !!(current && current.result && current.result.ok && !current.result.full),
   state: () => current && clone(current.state),
   result: () => current && current.result,
+  shown: () => shownCount,
   setMode,
 };
 start();
