@@ -98,12 +98,20 @@ class TraceCheck:
         return out
 
 
+def _factor(key: str, value: float) -> float:
+    """A criterion's share of the confidence: 1 at its `good` value, 0.5 at its threshold, 0 as
+    far past the threshold as `good` is before it (``THRESHOLDS``)."""
+    bad, good = THRESHOLDS[key]
+    f = 0.5 + 0.5 * (value - bad) / (good - bad) if good != bad else 1.0
+    return min(1.0, max(0.0, f))
+
+
 def check_hand(on_edge: float, within_px: float, note: str) -> TraceCheck:
     """The check of a boundary placed by hand: how much of it lies on a clean edge of the photo
     within `within_px` (:func:`~tracer.photo.contour.on_the_edge`). A person may place it where
     no edge shows (then they accept it); elsewhere, off the edge means drawn carelessly."""
-    bad, good = THRESHOLDS["on_the_edge"]
-    confidence = min(1.0, max(0.0, 0.5 + 0.5 * (on_edge - bad) / (good - bad)))
+    bad, _ = THRESHOLDS["on_the_edge"]
+    confidence = _factor("on_the_edge", on_edge)
     reasons = []
     if on_edge < bad:
         reasons.append(f"the boundary placed by hand lies on a clean edge of the photo along only {100 * on_edge:.0f} % "
@@ -122,9 +130,7 @@ def check_trace(seg: Segmentation, trace: Trace) -> TraceCheck:
     def judge(key: str, value: float, reason: str) -> None:
         bad, good = THRESHOLDS[key]
         measures[key] = float(value)
-        # 1 at `good`, 0.5 at the threshold, 0 as far past it as `good` is before it.
-        f = 0.5 + 0.5 * (value - bad) / (good - bad) if good != bad else 1.0
-        factors.append(min(1.0, max(0.0, f)))
+        factors.append(_factor(key, value))
         past = value < bad if good > bad else value > bad
         if past:
             reasons.append(reason)

@@ -187,11 +187,10 @@ class ReviewSession:
     def _measure(self, kw: dict[str, Any], *, full: bool) -> dict[str, Any]:
         from ..photo.pipeline import measure_photo
         from ..photo.segment import MemberUnclear
-        from ..result import measure, result_json
+        from ..result import measure
 
         t0 = time.perf_counter()
         photo = self.photo()
-        accepted = bool(kw.get("accept_trace"))
         try:
             pm = measure_photo(self.path, name=self.name, loaded=photo, **{**kw, "accept_trace": True})
         except MemberUnclear as e:
@@ -199,8 +198,15 @@ class ReviewSession:
         except (MeasurementError, InputError) as e:
             return {"ok": False, "message": str(e), "candidates": []}
         result = measure(pm.measurement, draws=None if full else QUICK_DRAWS)
+        return self._answer(pm, result, kw, full=full, t0=t0)
+
+    def _answer(self, pm: Any, result: Any, kw: dict[str, Any], *, full: bool, t0: float) -> dict[str, Any]:
+        """What the page draws of a measured photo `pm` and its `result`."""
+        from ..result import result_json
+
         doc = result_json(result)
         check = pm.check
+        accepted = bool(kw.get("accept_trace"))
         warnings = [w for w in result.warnings if "accepted unchecked" not in w]
         answer = {
             "ok": True, "full": full, "name": self.name,
@@ -248,6 +254,7 @@ class ReviewSession:
         written: list[str] = []
         outputs: list[tuple[Path, bytes]] = []
         message = ""
+        t0 = time.perf_counter()
         try:
             pm = measure_photo(self.path, name=self.name, loaded=self.photo(), **kw)
         except MeasurementError as e:
@@ -267,8 +274,8 @@ class ReviewSession:
         self._sidecar_digest = _digest(side)
         after = self.after_save(self) if self.after_save is not None else ""
         answer: dict[str, Any] = {"ok": True, "written": written, "message": message, "after": after}
-        if pm is not None:
-            answer["measured"] = self._measure(kw, full=True)
+        if pm is not None:                              # what was written, as the page shows it
+            answer["measured"] = self._answer(pm, result, kw, full=True, t0=t0)
         return _jsonable(answer)
 
 
