@@ -21,8 +21,8 @@ from pathlib import Path
 
 import cv2
 
-from tracer.photo.synth import Scene, render
-from tracer.shapes import channel, rectangle, tube
+from tracer.inputs.photo.synth import Scene, render
+from tracer.section.shapes import channel, rectangle, tube
 
 N_PHOTOS = 20
 

@@ -19,8 +19,8 @@ import numpy as np
 import shapely
 
 from timing import best
-from tracer.geometry import Section
-from tracer.properties import area_moments
+from tracer.section.geometry import Section
+from tracer.section.properties import area_moments
 
 
 def wavy_ring(n: int) -> np.ndarray:
@@ -60,7 +60,7 @@ def main() -> None:
     runs = []
     for _ in range(5):
         t0 = time.perf_counter()
-        subprocess.run([sys.executable, "-m", "tracer.cli", "measure", str(sheet)], check=True,
+        subprocess.run([sys.executable, "-m", "tracer", "measure", str(sheet)], check=True,
                        stdout=subprocess.DEVNULL)
         runs.append(time.perf_counter() - t0)
     t0 = time.perf_counter()

@@ -21,7 +21,7 @@ from pathlib import Path
 import cv2
 
 from timing import best, twelve_megapixel_photo
-from tracer.photo.pipeline import measure_photo
+from tracer.inputs.photo.pipeline import measure_photo
 from tracer.result import measure
 
 

@@ -29,8 +29,8 @@ def twelve_megapixel_photo() -> Iterator[tuple[Path, object]]:
     ``target="9x6:15mm"``."""
     import cv2
 
-    from tracer.photo.synth import Scene, render
-    from tracer.shapes import rectangle
+    from tracer.inputs.photo.synth import Scene, render
+    from tracer.section.shapes import rectangle
 
     scene = Scene(section=rectangle(b=120.0, h=240.0, wane={"top_left": 25.0}, chord_angle=0.05).translated(60, -40),
                   target=(9, 6, 15.0), target_at=(-150.0, -60.0), px_per_mm=8.6, tilt=6.0, blur=1.5, margin=30.0)

@@ -13,7 +13,7 @@ import time
 
 import numpy as np
 
-from tracer.geometry import Section
+from tracer.section.geometry import Section
 from tracer.torsion import evaluate_torsion, torsion_properties
 from tracer.uncertainty import BoundaryOffset, ErrorModel, PointNoise, ScaleError
 

@@ -20,9 +20,9 @@ import argparse  # noqa: E402
 import numpy as np  # noqa: E402
 
 from timing import best  # noqa: E402
-from tracer.ensemble import ensemble_properties  # noqa: E402
-from tracer.geometry import Section  # noqa: E402
-from tracer.properties import section_properties  # noqa: E402
+from tracer.uncertainty.ensemble import ensemble_properties  # noqa: E402
+from tracer.section.geometry import Section  # noqa: E402
+from tracer.section.properties import section_properties  # noqa: E402
 from tracer.uncertainty import (BoundaryOffset, ErrorModel, PointNoise, ScaleError, TiltAllowance,  # noqa: E402
                                 _Context, _draw, propagate_linear)
 

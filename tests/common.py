@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
-from tracer.geometry import Section
+from tracer.section.geometry import Section
 
 
 def star_ring(rng: np.random.Generator, n: int = 12, *, centre=(0.0, 0.0), r_min: float = 0.3) -> np.ndarray:

@@ -7,15 +7,15 @@ from ._version import __version__
 
 from .errors import (GeometryError, InputError, MeasurementError, ShapeError, SheetError, TracerError,
                      UnitError)
-from .geometry import Part, Section
+from .section.geometry import Part, Section
 from .measurement import Measurement
-from .properties import (PROPERTY_KEYS, PROPERTY_NAMES, Moments, Properties, area_moments, plastic_moduli,
+from .section.properties import (PROPERTY_KEYS, PROPERTY_NAMES, Moments, Properties, area_moments, plastic_moduli,
                          section_properties)
 from .result import Result, measure, result_json
-from .shapes import (ALPHA_MAX, SHAPE_KINDS, angle, arc_points, box, channel, i_section, make_shape, rectangle,
+from .section.shapes import (ALPHA_MAX, SHAPE_KINDS, angle, arc_points, box, channel, i_section, make_shape, rectangle,
                      round_bar, tee, tube)
-from .sheet import parse_sheet, read_sheet, sheet_text, write_sheet
-from .stations import stations_section
+from .inputs.sheet import parse_sheet, read_sheet, sheet_text, write_sheet
+from .section.stations import stations_section
 from .torsion import TORSION_KEYS, Torsion, evaluate_torsion, torsion_properties
 from .uncertainty import (BoundaryOffset, ErrorModel, HomographyError, PointNoise, Readings, ScaleError,
                           TiltAllowance, Uncertainty, evaluate_uncertainty, propagate_linear, propagate_monte_carlo)

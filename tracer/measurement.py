@@ -11,7 +11,7 @@ from dataclasses import dataclass, field, replace
 from types import MappingProxyType
 from typing import Any, Mapping
 
-from .geometry import Section
+from .section.geometry import Section
 from .uncertainty import ErrorModel
 
 __all__ = ["Measurement"]

@@ -14,7 +14,7 @@ from typing import Any
 from ._version import __version__
 from .errors import UnitError
 from .measurement import Measurement
-from .properties import PROPERTY_KEYS, Properties, section_properties
+from .section.properties import PROPERTY_KEYS, Properties, section_properties
 from .torsion import TORSION_KEYS, Torsion, TorsionUncertainty
 from .uncertainty import DEFAULT_SEED, Uncertainty, evaluate_uncertainty
 from .units import OUTPUT_UNITS, from_mm, mm_per, property_unit

@@ -32,7 +32,7 @@ def review_sessions(inputs: Sequence[str], options: dict[str, Any],
         A photo that does not exist, a folder that is no batch output, or a batch with nothing
         to review.
     """
-    from ..photo.pipeline import PHOTO_SUFFIXES
+    from ..inputs.photo.pipeline import PHOTO_SUFFIXES
 
     paths = [Path(p) for p in inputs]
     if len(paths) == 1 and paths[0].is_dir():
@@ -51,7 +51,7 @@ def review_sessions(inputs: Sequence[str], options: dict[str, Any],
 
 def _batch_sessions(out: Path, options: dict[str, Any]) -> tuple[list[ReviewSession], str]:
     from ..batch import read_plan, rerun, to_review
-    from ..photo.sidecar import layer_options
+    from ..inputs.photo.sidecar import layer_options
 
     if not (out / "batch.json").is_file():
         raise InputError(f"{out}: a folder without batch.json; give photos, or a tracer batch output folder")

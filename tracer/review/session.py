@@ -1,5 +1,5 @@
 """One photo under review: the settings and hints a person edits on the review page, measured by
-the same :func:`~tracer.photo.pipeline.measure_photo` as ``tracer measure``, and saved as the
+the same :func:`~tracer.inputs.photo.pipeline.measure_photo` as ``tracer measure``, and saved as the
 photo's sidecar (DESIGN.md, "Photo sidecar") beside the result JSON and the report.
 
 The page sends its whole state on every change: the photo options by their sidecar names, the
@@ -82,7 +82,7 @@ class ReviewSession:
     _fixed: dict = field(default_factory=dict, repr=False)
 
     def __post_init__(self) -> None:
-        from ..photo.sidecar import merge_options, read_sidecar_file
+        from ..inputs.photo.sidecar import merge_options, read_sidecar_file
 
         self.path = Path(self.path)
         self._sidecar_digest = _digest(self.sidecar_file)
@@ -128,7 +128,7 @@ class ReviewSession:
 
     def photo(self):
         """The photo, read once."""
-        from ..photo.load import load_photo
+        from ..inputs.photo.load import load_photo
 
         with self._lock:
             if self._photo is None:
@@ -158,7 +158,7 @@ class ReviewSession:
     def settings(self, state: dict[str, Any]) -> dict[str, Any]:
         """The page's `state` -> ``measure_photo`` keywords, checked (a bad key or value is an
         InputError naming it)."""
-        from ..photo.sidecar import layer_options, parse_trace
+        from ..inputs.photo.sidecar import layer_options, parse_trace
 
         if not isinstance(state, dict):
             raise InputError("the state must be a JSON object")
@@ -185,8 +185,8 @@ class ReviewSession:
         return self._measure(kw, full=full)
 
     def _measure(self, kw: dict[str, Any], *, full: bool) -> dict[str, Any]:
-        from ..photo.pipeline import measure_photo
-        from ..photo.segment import MemberUnclear
+        from ..inputs.photo.pipeline import measure_photo
+        from ..inputs.photo.segment import MemberUnclear
         from ..result import measure
 
         t0 = time.perf_counter()
@@ -236,8 +236,8 @@ class ReviewSession:
         overwritten unless `force`: the answer says so and the page asks.
         """
         from ..files import write_atomic, write_atomic_bytes
-        from ..photo.pipeline import measure_photo
-        from ..report import report_bytes
+        from ..inputs.photo.pipeline import measure_photo
+        from ..outputs.report import report_bytes
         from ..result import measure, result_json
 
         kw = self.settings(state)
@@ -286,7 +286,7 @@ def sidecar_text(side: Path, state: dict[str, Any], *, label: str | None = None)
 
     import tomli_w
 
-    from ..photo.sidecar import PHOTO_OPTIONS
+    from ..inputs.photo.sidecar import PHOTO_OPTIONS
 
     doc: dict[str, Any] = {}
     if side.is_file():
