@@ -314,7 +314,7 @@ def test_coverage_of_a_traced_outline_with_systematic_offset():
     truth_section = Section(true_xy)
     truth = section_properties(truth_section).values()
     u_off, u_pt, u_sc = 0.15, 0.05, 1e-3
-    from tracer.uncertainty.propagation import _Context
+    from tracer.uncertainty.models import _Context
 
     ctx = _Context.of(truth_section, section_properties(truth_section))
     model = ErrorModel((BoundaryOffset(u_off), PointNoise(u_pt), ScaleError(u_sc)))

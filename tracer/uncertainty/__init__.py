@@ -1,10 +1,11 @@
-"""How far the numbers can be trusted: the error model's kinds, linear (JCGM 100) and Monte Carlo
-(JCGM 101) propagation, and the ensemble of perturbed sections."""
+"""How far the numbers can be trusted: the error model's kinds (:mod:`.models`), linear (JCGM 100)
+and Monte Carlo (JCGM 101) propagation (:mod:`.propagation`), and every property of many perturbed
+sections at once (:mod:`.ensemble`)."""
 
-from .propagation import (affine_jacobian, BoundaryOffset, BUDGET_KEYS, DEFAULT_SEED, draw_vertices,
-                          ErrorModel, evaluate_uncertainty, HomographyError, LinearUncertainty,
-                          MonteCarloUncertainty, PointNoise, propagate_linear, propagate_monte_carlo,
-                          Readings, resolution_u, rotate_model, ScaleError, TiltAllowance, Uncertainty)
+from .models import (BoundaryOffset, ErrorModel, HomographyError, PointNoise, Readings, ScaleError, TiltAllowance,
+                     affine_jacobian, resolution_u, rotate_model)
+from .propagation import (BUDGET_KEYS, DEFAULT_SEED, LinearUncertainty, MonteCarloUncertainty, Uncertainty,
+                          draw_vertices, evaluate_uncertainty, propagate_linear, propagate_monte_carlo)
 
 __all__ = ["Readings", "PointNoise", "BoundaryOffset", "ScaleError", "HomographyError", "TiltAllowance",
            "ErrorModel", "LinearUncertainty", "MonteCarloUncertainty", "Uncertainty", "BUDGET_KEYS",
