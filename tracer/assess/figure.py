@@ -9,7 +9,8 @@ from __future__ import annotations
 import io
 import textwrap
 
-from .screen import ASSESS_CAUTIONS, Comparison
+from .loss import Comparison
+from .shared import ASSESS_CAUTIONS
 
 __all__ = ["loss_map"]
 

@@ -26,8 +26,9 @@ from ..errors import InputError, MeasurementError, ShapeError
 from ..measurement import Measurement
 from ..section.properties import section_properties
 from ..uncertainty import DEFAULT_SEED
+from .shared import ASSESS_CAUTIONS, json_head, quantity
 
-__all__ = ["FIT_KINDS", "ShapeFit", "fit_shape"]
+__all__ = ["FIT_KINDS", "ShapeFit", "fit_shape", "fit_json"]
 
 #: Kinds that can be fitted, and the dimensions fitted for each.
 FIT_KINDS: dict[str, tuple[str, ...]] = {
@@ -347,3 +348,23 @@ def _article(kind: str) -> str:
     from ..section.shapes import article
 
     return f"{article(kind)} {kind}"
+
+
+def fit_json(f, measurement: Measurement) -> dict[str, Any]:
+    """A :class:`tracer.assess.fit.ShapeFit` as a ``tracer/fit/1`` JSON document: ``kind``, and ``dims``
+    mapping each dimension to ``{value, u, unit}``."""
+    doc = json_head("tracer/fit/1", measurement)
+    doc["kind"] = f.kind
+    doc["dims"] = {k: quantity(v, f.u.get(k), "mm") for k, v in f.dims.items()}
+    doc["pose"] = {"rotation_deg": f.angle, "mirrored": f.mirrored, "offset": {"x": f.offset[0], "y": f.offset[1]},
+                   "meaning": "measured points p map into the shape's frame as R(rotation) (mirror) p + offset"}
+    doc["residuals"] = {"robust_rms": quantity(f.residual_rms, None, "mm"), "outliers": f.outliers,
+                        "points": f.points,
+                        "method": "soft-L1 robust least squares of the signed boundary distance"}
+    doc["uncertainty"] = {"k": 1, "draws": f.draws or None,
+                          "parts": {part: {k: quantity(v, None, "mm") for k, v in d.items()}
+                                    for part, d in f.u_parts.items()}}
+    doc["tolerance"] = {"source": f.tolerance_source, "dims": f.tolerance} if f.nominal is not None else None
+    doc["warnings"] = list(f.warnings)
+    doc["cautions"] = list(ASSESS_CAUTIONS)
+    return doc

@@ -8,7 +8,9 @@ from __future__ import annotations
 
 import math
 
-from .screen import ASSESS_CAUTIONS, CHECK_KEYS, CHECK_UNITS, LOSS_KEYS, Comparison, Screen
+from .loss import LOSS_KEYS, Comparison
+from .screen import CHECK_KEYS, CHECK_UNITS, Screen
+from .shared import ASSESS_CAUTIONS
 from .beams import SUPPORTS
 from ..outputs.table import _columns, format_measured, format_value
 
