@@ -186,7 +186,7 @@ class ReviewSession:
 
     def _measure(self, kw: dict[str, Any], *, full: bool) -> dict[str, Any]:
         from ..inputs.photo.pipeline import measure_photo
-        from ..inputs.photo.segment import MemberUnclear
+        from ..inputs.photo.choice import MemberUnclear
         from ..result import measure
 
         t0 = time.perf_counter()

@@ -9,10 +9,10 @@ Bark is an outer layer of the face that looks unlike the wood just inside it. On
 mask the distance to its outline splits the face into a rim (the outermost few per cent of its
 radius) and the outer wood (a band further in). Where their colours differ clearly (ΔE*ab over
 :data:`MIN_DELTA_E` [1]_), every pixel of the outer band of the face is given to one or the other
-by a minimum graph cut between local colour models of the two (:mod:`tracer.inputs.photo.segment`'s
-local models, [2]_), the deep wood held to the wood and the outline's own pixels to the bark. The
-bark is what the cut gives to the rim; it is *seen* where it covers at least
-:data:`MIN_COVERAGE` of the outline.
+by a minimum graph cut between local colour models of the two
+(:func:`~tracer.inputs.photo.regions.local_costs`, [2]_), the deep wood held to the wood and the
+outline's own pixels to the bark. The bark is what the cut gives to the rim; it is *seen* where it
+covers at least :data:`MIN_COVERAGE` of the outline.
 
 References
 ----------
@@ -86,8 +86,7 @@ def find_bark(seg, photo) -> Bark:
     `photo`."""
     import cv2
 
-    from .regions import appearance, min_cut
-    from .segment import local_costs
+    from .regions import appearance, local_costs, min_cut
     from .tone import LIGHT_OF_8BIT
 
     member = seg.mask
@@ -133,7 +132,7 @@ def find_bark(seg, photo) -> Bark:
     if n < 2:
         return none
     core = labels == 1 + int(np.argmax(stats[1:, cv2.CC_STAT_AREA]))
-    from .segment import fill_holes
+    from .masks import fill_holes
 
     wood = fill_holes(core, np.inf) & member
     bark = member & ~wood

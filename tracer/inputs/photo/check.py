@@ -37,7 +37,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .contour import Trace
-from .segment import Segmentation, nearer_model, neighbours
+from .choice import neighbours
+from .regions import nearer_model
+from .segment import Segmentation
 
 __all__ = ["TraceCheck", "check_trace", "check_hand", "THRESHOLDS", "REVIEW_BELOW"]
 
@@ -337,7 +339,7 @@ def _adjoining(seg: Segmentation) -> float:
 
 def _neighbours(seg: Segmentation) -> float:
     """The largest area, as a share of the face's, that a credible other region by the face
-    (:func:`~tracer.inputs.photo.segment.neighbours`, scale references left out) has beyond 2 px round
+    (:func:`~tracer.inputs.photo.choice.neighbours`, scale references left out) has beyond 2 px round
     the face, cleaned of specks and threads (an opening by a 3 x 3 square)."""
     import cv2
 

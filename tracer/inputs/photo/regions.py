@@ -12,6 +12,11 @@ the two models' costs of each pixel and whose neighbour weights fall with the co
 across them [2]_, [3]_; the models are re-estimated from the cut and cut again, as in [3]_.
 PyMaxflow's implementation of [4]_ finds the cut.
 
+Near a boundary already found, local models follow a member or a ground whose colour changes
+along it: a Gaussian in CIELAB about each one's mean colour near every pixel (:func:`local_costs`;
+the means by normalised convolution, :func:`local_mean`). :func:`nearer_model` tells which of two
+regions' models a pixel's features are nearer to.
+
 Why this and not the alternatives (measured on the real photos and renders of the tests): OpenCV's
 GrabCut took 0.3-1.8 s on a 0.15 MP copy, with colour models only; a palette of colour and
 texture with PyMaxflow takes 5-15 ms a cut on a 0.06 MP copy and let texture enter the model.
@@ -37,7 +42,7 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["Appearance", "appearance", "region_costs", "min_cut", "grow_region", "first_guess", "PALETTE_SIZE",
-           "CHROMA_WEIGHT", "pattern_features"]
+           "CHROMA_WEIGHT", "pattern_features", "local_costs", "nearer_model"]
 
 #: Looks in the palette (k-means clusters of colour and texture).
 PALETTE_SIZE = 24
@@ -59,6 +64,8 @@ _PRIOR_COUNT = 0.5
 SMOOTHNESS = 2.0
 # A hard constraint's terminal weight.
 _HARD = 1e9
+# Floor on a local model's feature variance.
+_MIN_VAR = 1.0
 
 
 @dataclass(frozen=True)
@@ -288,6 +295,45 @@ def local_mean(values: np.ndarray, where: np.ndarray, reach: float) -> tuple[np.
         if vb.ndim == 2:
             vb = vb[..., None]
     return vb / np.maximum(wb, 1e-6)[..., None], wb
+
+
+def local_costs(lab: np.ndarray, inner: np.ndarray, ring: np.ndarray, reach: float) -> tuple[np.ndarray, np.ndarray]:
+    """Each pixel's cost of being member and ground under local colour models: Gaussians in
+    CIELAB about the member's and the ground's mean colour near it (normalised convolution of
+    `inner` and `ring` over `reach` px, so that shading, heartwood and sapwood, or a ground
+    that changes along the member are followed), with one pooled spread."""
+
+    def near(sel: np.ndarray) -> np.ndarray:
+        m, w = local_mean(lab, sel, reach)
+        whole = np.median(lab[sel], axis=0) if sel.any() else np.zeros(3, np.float32)
+        return np.where((w > 1e-3)[..., None], m, whole).astype(np.float32)
+
+    mu_in = near(inner)
+    mu_out = near(ring)
+    d_in = np.square(lab - mu_in).sum(axis=2)
+    d_out = np.square(lab - mu_out).sum(axis=2)
+    var = 0.5 * (float(np.median(d_in[inner])) if inner.any() else 1.0) + \
+        0.5 * (float(np.median(d_out[ring])) if ring.any() else 1.0)
+    var = max(var, 1.0)
+    return (d_in / (2 * var)).astype(np.float32), (d_out / (2 * var)).astype(np.float32)
+
+
+def nearer_model(feats: np.ndarray, where: np.ndarray, a: np.ndarray, b: np.ndarray, *,
+                 apart: float = 3.0) -> np.ndarray:
+    """Pixels of `where` nearer (Gaussian log-likelihood, independent features) to region `a`'s
+    features than to region `b`'s, where the two differ clearly (means `apart` pooled spreads
+    apart)."""
+    fa, fb = feats[a], feats[b]
+    ma, mb = fa.mean(axis=0), fb.mean(axis=0)
+    va, vb = np.maximum(fa.var(axis=0), _MIN_VAR), np.maximum(fb.var(axis=0), _MIN_VAR)
+    out = np.zeros(where.shape, bool)
+    if float(np.sqrt(np.sum((ma - mb) ** 2 / (0.5 * (va + vb))))) < apart:
+        return out
+    x = feats[where]
+    da = 0.5 * (((x - ma) ** 2) / va + np.log(va)).sum(axis=1)
+    db = 0.5 * (((x - mb) ** 2) / vb + np.log(vb)).sum(axis=1)
+    out[where] = da < db
+    return out
 
 
 def _fit_palette(feats: np.ndarray, seed: int, size: int) -> np.ndarray:
