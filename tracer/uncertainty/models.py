@@ -17,10 +17,6 @@ JCGM 100:2008, 5.1.2), and (b) draw perturbed geometries for Monte Carlo propaga
 - :class:`HomographyError` — the covariance of a fitted plane-to-plane homography.
 - :class:`TiltAllowance` — the one-sided cosine error of an unknown tilt of the section plane.
 
-Every reported ``u`` is the root-mean-square deviation of the property about its reported value
-(k = 1). For symmetric inputs that is the standard deviation; a one-sided allowance is not
-corrected for, and its offset is carried inside u.
-
 References
 ----------
 .. [1] JCGM 100:2008, *Evaluation of measurement data - Guide to the expression of uncertainty
