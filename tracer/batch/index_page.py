@@ -1,5 +1,5 @@
-"""The batch's index page ``index.html``: a sortable table of the members with their pictures,
-the cautions first; self-contained (its CSS, script and pictures inline), it opens offline.
+"""The batch's index page ``index.html``: the cautions first, then a sortable table of the members
+with their pictures; self-contained (its CSS, script and pictures inline), it opens offline.
 """
 
 from __future__ import annotations
@@ -10,7 +10,7 @@ from pathlib import Path
 from typing import Any
 
 from .._version import __version__
-from .plan import THUMBS
+from .plan import INVENTORY_FILE, README_FILE, THUMBS
 from .records import scale_method
 
 __all__ = ["index_html"]
@@ -20,7 +20,8 @@ _INDEX_KEYS = ("A", "Ix", "Iy", "I1", "I2", "Sx_top", "Zx", "Zy")
 _INDEX_CSS = """
 body{font:14px/1.4 system-ui,sans-serif;margin:1.5em;color:#1d2b38}
 h1{font-size:1.4em;margin:0 0 .3em}
-p.caution{border-left:4px solid #b03a2e;padding:.4em .8em;background:#fbf1ef;max-width:60em}
+section.cautions{border-left:4px solid #b03a2e;padding:.2em .8em;background:#fbf1ef;max-width:60em}
+section.cautions p{margin:.4em 0}
 table{border-collapse:collapse;margin-top:1em}
 th,td{border-bottom:1px solid #dde3e8;padding:4px 8px;vertical-align:middle;text-align:left}
 th{background:#eef2f5;cursor:pointer;user-select:none;position:sticky;top:0}
@@ -98,16 +99,19 @@ def index_html(rows: list[dict[str, Any]], out: Path, plan: dict) -> str:
         cls = row["status"].replace(" ", "-")
         body.append(f'<tr class="{cls}">' + "".join(cells) + "</tr>")
     n = {s: sum(r["status"] == s for r in rows) for s in ("done", "failed", "not run")}
-    caution = "".join(f"<p>{e(c)}</p>" for c in CAUTIONS[1:])
+    # The cautions first, above the table, in one marked block: every one of them, worded as the reports word them.
+    cautions = (f"<p><strong>Screening only.</strong> {e(CAUTIONS[0])}</p>\n"
+                + "".join(f"<p>{e(c)}</p>\n" for c in CAUTIONS[1:]))
     return ("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
             "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
             f"<title>inventory · {len(rows)} members</title>\n<style>{_INDEX_CSS}</style>\n</head>\n<body>\n"
             f"<h1>Inventory of {len(rows)} members</h1>\n"
             f"<p>{n['done']} measured, {n['failed']} failed, {n['not run']} not run; tracer {e(__version__)}, "
             f"from {e(str(plan.get('source', '')))}. Values are value ± U, U = 2u (k = 2, about 95 % coverage); "
-            "lengths in mm. Click a heading to sort; a picture or name opens the member's report.</p>\n"
-            f'<p class="caution"><strong>Screening only.</strong> {e(CAUTIONS[0])}</p>\n'
+            "lengths in mm. Click a heading to sort; a picture or name opens the member's report. "
+            f'The same values with their u (k = 1) are in <a href="{INVENTORY_FILE}">{INVENTORY_FILE}</a>; '
+            f'<a href="{README_FILE}">{README_FILE}</a> says what each file here is.</p>\n'
+            f'<section class="cautions" aria-label="cautions">\n{cautions}</section>\n'
             '<table class="inventory"><thead><tr>' + "".join(f"<th>{e(h)}</th>" for h in heads)
             + "</tr></thead>\n<tbody>\n" + "\n".join(body) + "\n</tbody></table>\n"
-            f'<section class="cautions">{caution}</section>\n'
             f"<script>{_INDEX_JS}</script>\n</body>\n</html>\n")

@@ -1,5 +1,6 @@
-"""The batch's inventory: ``inventory.csv`` (one row per item of the plan, from the per-item
-records), written with the index page and the folder's ``README.txt``.
+"""The batch's inventory: ``inventory.csv``, a plain CSV with one row per item of the plan, from the
+per-item records; written with the index page and the folder's ``README.txt`` (what the files are,
+and the cautions).
 """
 
 from __future__ import annotations
@@ -13,7 +14,7 @@ from typing import Any
 from ..errors import InputError
 from ..files import write_atomic
 from .index_page import index_html
-from .plan import PLAN_FILE
+from .plan import INDEX_FILE, INVENTORY_FILE, PLAN_FILE, README_FILE
 from .records import item_row, scale_method
 
 __all__ = ["INVENTORY_KEYS", "rebuild_inventory", "rebuild"]
@@ -24,10 +25,12 @@ INVENTORY_KEYS: tuple[str, ...] = ("A", "cx", "cy", "Ix", "Iy", "Ixy", "I1", "I2
 
 
 def rebuild_inventory(out: str | Path) -> tuple[Path, Path]:
-    """Write ``inventory.csv`` and ``index.html`` in `out` from its plan and per-item records.
+    """Write ``inventory.csv``, ``index.html`` and ``README.txt`` in `out` from its plan and per-item records.
 
     Each item of the plan (``batch.json``) gets one row: its result where ``NAME.json`` holds the
-    plan's key, its failure where ``NAME.failed.json`` does, else status ``not run``.
+    plan's key, its failure where ``NAME.failed.json`` does, else status ``not run``. The inventory
+    is a plain CSV (its first line the header, then one line per item); the cautions that go with
+    its values are on the index page and in ``README.txt``.
 
     Returns
     -------
@@ -45,9 +48,10 @@ def rebuild(out: Path) -> tuple[Path, Path, list[dict[str, Any]]]:
     except (OSError, ValueError):
         raise InputError(f"{out}: no batch plan ({PLAN_FILE}) here; run tracer batch into this folder first") from None
     rows = [item_row(out, entry) for entry in plan["items"]]
-    inventory, index = out / "inventory.csv", out / "index.html"
+    inventory, index = out / INVENTORY_FILE, out / INDEX_FILE
     write_atomic(inventory, _inventory_csv(rows))
-    write_atomic(index, index_html(rows, out, plan))
+    write_atomic(out / README_FILE, _readme_text(plan))
+    write_atomic(index, index_html(rows, out, plan))           # last: it links to the other two
     return inventory, index, rows
 
 
@@ -81,14 +85,39 @@ def _num(v: Any) -> str:
 
 
 def _inventory_csv(rows: list[dict[str, Any]]) -> str:
-    from ..outputs.report import CAUTIONS
-
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(_inventory_columns())
     for row in rows:
         w.writerow(_inventory_values(row))
-    buf.write("".join(f"# {c}\n" for c in CAUTIONS))
-    buf.write("# u is the standard uncertainty (k = 1); lengths in mm, theta in degrees; "
-              "the columns' units are in their names (A_mm2 = mm^2).\n")
     return buf.getvalue()
+
+
+def _readme_text(plan: dict) -> str:
+    """The folder's ``README.txt``: what its files are, and the cautions, worded as the reports word them."""
+    from .._version import __version__
+    from ..outputs.report import CAUTIONS
+
+    return (f"Written by tracer batch (tracer {__version__}) from {plan.get('source', '')}.\n\n"
+            "CAUTIONS\n\n" + "".join(f"- {c}\n" for c in CAUTIONS) + "\n"
+            "FILES\n\n" + _FILES)
+
+
+_FILES = """\
+inventory.csv     One row per member: name, member, path, kind, status (done, failed or not run),
+                  reason, scale_method, warnings (how many), then each property and its standard
+                  uncertainty u (k = 1), the unit in the column's name (A_mm2 and u_A_mm2 in mm^2,
+                  cx_mm in mm, Ix_mm4 in mm^4, theta_deg in degrees); last the input file's
+                  SHA-256. A plain CSV: the first line is the header.
+index.html        The same members on a page to sort, with a picture of each and the cautions
+                  above; there the values are value +/- U, U = 2u (k = 2, about 95 % coverage).
+NAME.json         A member's result (schema tracer/result/1) with a "batch" record: its key, its
+                  settings and the files written for it.
+NAME.png          The review picture of a photo: the trace drawn over it.
+NAME.html         A member's report (NAME.pdf with --report pdf; none with --report none).
+NAME.failed.json  Why a member could not be measured.
+thumbs/           The pictures of index.html.
+batch.json        The batch's plan: its source, settings and members. A rerun of the same command
+                  measures only what changed; tracer batch --out DIR --rebuild rewrites
+                  inventory.csv, index.html and this file from the records.
+"""

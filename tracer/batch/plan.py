@@ -20,7 +20,8 @@ from ..inputs.photo.sidecar import layer_options as _layer
 from ..inputs.photo.sidecar import merge_options as _merge
 from ..inputs.photo.sidecar import read_sidecar as _sidecar
 
-__all__ = ["PhotoOption", "PHOTO_OPTIONS", "MANIFEST_COLUMNS", "REPORT_CHOICES", "PLAN_SCHEMA", "PLAN_FILE", "THUMBS",
+__all__ = ["PhotoOption", "PHOTO_OPTIONS", "MANIFEST_COLUMNS", "REPORT_CHOICES", "PLAN_SCHEMA", "PLAN_FILE",
+           "INVENTORY_FILE", "INDEX_FILE", "README_FILE", "THUMBS",
            "BatchItem", "plan_batch", "read_plan", "plan_json", "read_json", "safe_name"]
 
 
@@ -32,6 +33,9 @@ REPORT_CHOICES: tuple[str, ...] = ("html", "pdf", "none")
 
 PLAN_SCHEMA = "tracer/batch/1"
 PLAN_FILE = "batch.json"                             # the plan, in the output folder
+INVENTORY_FILE = "inventory.csv"                     # the folder's own files, rebuilt from the records
+INDEX_FILE = "index.html"
+README_FILE = "README.txt"
 THUMBS = "thumbs"                                    # the folder of the index page's pictures
 _RESERVED = frozenset({"batch", "index", "inventory", THUMBS})
 _SHEET_SUFFIX = ".toml"
