@@ -189,7 +189,7 @@ def read_json(path: Path) -> dict | None:
 
 
 def _photo_suffixes() -> tuple[str, ...]:
-    from ..inputs.photo.pipeline import PHOTO_SUFFIXES
+    from ..inputs.photo.load import PHOTO_SUFFIXES        # not from the pipeline: the parent never measures
 
     return PHOTO_SUFFIXES
 
