@@ -128,7 +128,7 @@ def run_batch(source: str | Path, out: str | Path, *, defaults: dict[str, Any] |
     with _lock(out):
         _remove_temporaries(out)
         write_atomic(out / PLAN_FILE, json.dumps(plan_json(source, defaults, report, items), indent=2,
-                                             ensure_ascii=False) + "\n")
+                                                 ensure_ascii=False) + "\n")
         todo = [it for it in items if not is_current(it, out, report)]
         counts = {"done": 0, "failed": 0}
         skipped = len(items) - len(todo)
