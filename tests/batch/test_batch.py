@@ -86,16 +86,15 @@ def batch(yard, tmp_path_factory):
     return out, summary, events
 
 
-def _inventory(path: Path) -> tuple[list[dict[str, str]], list[str]]:
-    lines = path.read_text().splitlines()
-    notes = [ln for ln in lines if ln.startswith("#")]
-    rows = list(csv.DictReader([ln for ln in lines if not ln.startswith("#")]))
-    return rows, notes
+def _inventory(path: Path) -> list[dict[str, str]]:
+    """The inventory's rows, read as any CSV reader reads a file: the first line names the columns."""
+    with open(path, newline="", encoding="utf-8") as f:
+        return list(csv.DictReader(f))
 
 
 def test_folder_batch_rows_reasons_and_values(yard, batch):
     out, summary, events = batch
-    rows, notes = _inventory(out / "inventory.csv")
+    rows = _inventory(out / "inventory.csv")
     by = {r["name"]: r for r in rows}
     assert sorted(by) == sorted(["bad-sheet", "channel", "corrupt", "joist", "no-target", "plank", "joist-2"])
     assert len(rows) == 7                                   # the sidecar channel.toml is settings, not an item
@@ -122,7 +121,6 @@ def test_folder_batch_rows_reasons_and_values(yard, batch):
         assert abs(float(r["A_mm2"]) - a) < 3 * float(r["u_A_mm2"]), name
         assert abs(float(r["Ix_mm4"]) - ix) < 3 * float(r["u_Ix_mm4"]), name
     assert f"u_{INVENTORY_KEYS[0]}_mm2" in rows[0]
-    assert any("not a design check" in n for n in notes) and any("qualified engineer" in n for n in notes)
     # Every done item has its result (with the key), picture and report; a failed one only its record.
     for name in ("joist", "joist-2", "channel"):
         doc = json.loads((out / f"{name}.json").read_text())
@@ -188,6 +186,94 @@ def test_index_is_self_contained_with_one_row_per_item(batch):
     assert "not a design check" in text and "qualified engineer" in text and "http" not in text
 
 
+# What every output that carries section properties says (../shared/DESIGN.md, "Cautions (fixed)"):
+# for screening, not a design check, a member for reuse assessed by a qualified engineer under the
+# local building code.
+DESIGN_CAUTION = ("screening", "not a design check", "qualified engineer", "local building code")
+
+
+def test_inventory_is_a_plain_csv_whose_first_line_is_the_header(batch):
+    out, _, _ = batch
+    path = out / "inventory.csv"
+    lines = path.read_text(encoding="utf-8").splitlines()
+    # RFC 4180, as spreadsheets and data-frame readers take a file without options: the header first,
+    # then one record per member, each as wide as the header; no comment lines.
+    assert lines[0].split(",")[:10] == ["name", "member", "path", "kind", "status", "reason", "scale_method",
+                                        "warnings", "A_mm2", "u_A_mm2"]
+    assert not [ln for ln in lines if ln.startswith("#")]
+    with open(path, newline="", encoding="utf-8") as f:
+        records = list(csv.reader(f))
+    assert len(records) == 1 + 7 and {len(r) for r in records} == {len(records[0])}
+    assert records[0] == lines[0].split(",")
+
+
+def test_inventory_opens_in_pandas_without_options(batch):
+    pd = pytest.importorskip("pandas")
+    out, _, _ = batch
+    df = pd.read_csv(out / "inventory.csv")
+    assert df.shape == (7, len(_inventory(out / "inventory.csv")[0]))
+    plank = df[df["name"] == "plank"].iloc[0]
+    assert plank["A_mm2"] == pytest.approx(50 * 150, rel=1e-9)           # A = b h of the 50 x 150 plank
+    assert plank["Ix_mm4"] == pytest.approx(50 * 150**3 / 12, rel=1e-9)  # Ix = b h^3 / 12
+    assert df["status"].value_counts().to_dict() == {"done": 4, "failed": 3}
+
+
+class _Cautions(HTMLParser):
+    """The text of the page's caution block, and whether it came before the table."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.text, self.before_table, self._in, self._table = "", False, False, False
+
+    def handle_starttag(self, tag, attrs):
+        if tag == "section" and dict(attrs).get("class") == "cautions":
+            self._in, self.before_table = True, not self._table
+        elif tag == "table":
+            self._table = True
+
+    def handle_endtag(self, tag):
+        if tag == "section":
+            self._in = False
+
+    def handle_data(self, data):
+        if self._in:
+            self.text += data
+
+
+def test_index_page_shows_every_caution_above_the_table(batch):
+    from tracer.outputs.report import CAUTIONS
+
+    out, _, _ = batch
+    page = _Cautions()
+    page.feed((out / "index.html").read_text(encoding="utf-8"))
+    assert page.before_table and page.text.strip().startswith("Screening only.")
+    for phrase in DESIGN_CAUTION:
+        assert phrase in page.text, phrase
+    for c in CAUTIONS:                                         # each one as the reports word it
+        assert c in page.text, c
+
+
+def test_readme_says_what_the_files_are_carries_the_cautions_and_is_rebuilt(batch, tmp_path):
+    from tracer.outputs.report import CAUTIONS
+
+    out, _, _ = batch
+    text = (out / "README.txt").read_text(encoding="utf-8")
+    for phrase in DESIGN_CAUTION:
+        assert phrase in text, phrase
+    for c in CAUTIONS:
+        assert c in text, c
+    assert "u (k = 1)" in text                                 # what the inventory's u columns are
+    for name in ("inventory.csv", "index.html", "batch.json", "thumbs"):
+        assert f"\n{name}" in text and (out / name).exists(), name
+    # Rebuilt with the inventory: removed, it comes back, to the same text.
+    o2 = tmp_path / "out"
+    shutil.copytree(out, o2)
+    (o2 / "README.txt").unlink()
+    rebuild_inventory(o2)
+    assert (o2 / "README.txt").read_text(encoding="utf-8") == text
+    assert not [p for p in o2.rglob("*") if p.name.endswith(".tmp")]
+
+
 def test_rerun_skips_everything_and_a_changed_setting_reruns_that_item(yard, batch, tmp_path):
     out, _, _ = batch
     y2, o2 = tmp_path / "yard", tmp_path / "out"
@@ -199,8 +285,8 @@ def test_rerun_skips_everything_and_a_changed_setting_reruns_that_item(yard, bat
     assert (s.done, s.failed, s.skipped) == (0, 0, 7)
     assert {p.name: p.stat().st_mtime_ns for p in o2.glob("*.json") if p.name != "batch.json"} == \
         {k: v for k, v in before.items() if k != "batch.json"}
-    rows0, _ = _inventory(out / "inventory.csv")
-    rows1, _ = _inventory(o2 / "inventory.csv")
+    rows0 = _inventory(out / "inventory.csv")
+    rows1 = _inventory(o2 / "inventory.csv")
     assert rows1 == rows0
     # A changed setting in one sidecar: that item alone is measured again, with the new setting.
     side = y2 / "channel.toml"
@@ -233,7 +319,7 @@ def test_manifest_with_per_item_settings(tmp_path):
     out = tmp_path / "out"
     s = run_batch(manifest, out, jobs=2, report="none")
     assert (s.total, s.done, s.failed) == (5, 4, 1)
-    rows, _ = _inventory(out / "inventory.csv")
+    rows = _inventory(out / "inventory.csv")
     by = {r["name"]: r for r in rows}
     assert list(by) == ["joist-J-14-bay-3", "channel-C-7", "joist-by-its-depth", "plank", "missing"]
     assert by["joist-J-14-bay-3"]["member"] == "joist J-14 (bay 3)"
@@ -246,6 +332,13 @@ def test_manifest_with_per_item_settings(tmp_path):
     assert abs(float(by["channel-C-7"]["Ix_mm4"]) - ix) < 3 * float(by["channel-C-7"]["u_Ix_mm4"])
     doc = json.loads((out / "joist-by-its-depth.json").read_text())
     assert doc["batch"]["settings"] == {"known": "depth=120mm", "max_tilt": 3.0}
+    # numpy's text reader opens the inventory without options too (no cell here holds a comma: it
+    # does not read quoted cells).
+    import numpy as np
+
+    table = np.genfromtxt(out / "inventory.csv", delimiter=",", names=True, dtype=None, encoding="utf-8")
+    assert table.shape == (5,) and list(table["name"]) == list(by)
+    assert table["A_mm2"][3] == pytest.approx(50 * 150, rel=1e-9)          # the plank: A = b h
 
 
 def test_manifest_and_option_errors(tmp_path):
@@ -287,8 +380,8 @@ def test_kill_in_the_middle_then_rerun_matches_an_uninterrupted_run(yard, batch,
     r = subprocess.run(cmd, capture_output=True, text=True)
     assert r.returncode == 1, r.stderr                         # 1: some items failed
     assert "skipped" in r.stdout
-    rows_k, _ = _inventory(k / "inventory.csv")
-    rows_u, _ = _inventory(out / "inventory.csv")
+    rows_k = _inventory(k / "inventory.csv")
+    rows_u = _inventory(out / "inventory.csv")
     assert len(rows_k) == len(rows_u) == 7
     for a, b in zip(rows_k, rows_u):
         assert a == b                                          # the same rows, value for value
@@ -325,7 +418,7 @@ def test_ctrl_c_finishes_the_items_in_hand_and_writes_the_inventory(yard, tmp_pa
            "--target", "6x4:10mm"]
     r = _stop_after_two(cmd, out, signal.SIGINT)
     assert r.returncode == 130 and "stopped; run the same command again to go on" in r.stderr
-    rows, _ = _inventory(out / "inventory.csv")
+    rows = _inventory(out / "inventory.csv")
     assert len(rows) == 7
     n = {s: sum(row["status"] == s for row in rows) for s in ("done", "failed", "not run")}
     assert sum(n.values()) == 7 and n["done"] + n["failed"] >= 2

@@ -11,8 +11,10 @@ import numpy as np
 from ...errors import InputError
 from ...files import read_input, sha256_of
 
-__all__ = ["Photo", "load_photo", "as_unit", "MAX_PIXELS"]
+__all__ = ["Photo", "load_photo", "as_unit", "MAX_PIXELS", "PHOTO_SUFFIXES"]
 
+#: File suffixes read as photos.
+PHOTO_SUFFIXES = (".jpg", ".jpeg", ".png", ".tif", ".tiff", ".webp", ".bmp")
 #: Largest image accepted [pixels]; larger ones are refused before they are decoded.
 MAX_PIXELS = 120_000_000
 # Formats OpenCV decodes directly (8-bit, no alpha).

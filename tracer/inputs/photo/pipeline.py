@@ -24,7 +24,7 @@ from .contour import Trace, coarser_section, hand_trace, on_the_edge, trace_boun
 from .graduation import graduation_read
 from .hints import Hints, make_hints
 from .lens import LensProfile, read_profile
-from .load import Photo, load_photo
+from .load import PHOTO_SUFFIXES, Photo, load_photo
 from .ruler import MIN_TICKS, RulerReading
 from .scale import (DEFAULT_MAX_TILT, LENS_ALLOWANCE, PlaneMap, map_from_dpi, map_from_points, map_from_ruler,
                     map_from_target, map_from_two_rulers, parse_target, parse_two_points)
@@ -35,8 +35,6 @@ from .view import camera_view, image_side, side_faces
 
 __all__ = ["PhotoMeasurement", "TraceNeedsReview", "measure_photo", "PHOTO_SUFFIXES", "DEFAULT_TEXTURE_MM"]
 
-#: File suffixes read as photos.
-PHOTO_SUFFIXES = (".jpg", ".jpeg", ".png", ".tif", ".tiff", ".webp", ".bmp")
 #: Cracks, checks and specks narrower than this are texture, not edges [mm].
 DEFAULT_TEXTURE_MM = 2.0
 # Differences between the pixel and contour moments beyond this many times their expected size
