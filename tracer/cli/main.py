@@ -817,7 +817,7 @@ def _calibrate(args: argparse.Namespace) -> int:
 
 
 def _demo(args: argparse.Namespace) -> int:
-    from ..inputs.photo.samples import sample_names, sample_settings
+    from ..inputs.photo.renders.samples import sample_names, sample_settings
 
     names = sample_names()
     if args.list:

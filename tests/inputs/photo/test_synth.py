@@ -19,9 +19,9 @@ import pytest
 import shapely
 
 from tracer.section.geometry import Section
-from tracer.inputs.photo.members import corroded_section, log_section, waney_board
-from tracer.inputs.photo.scenery import GROUNDS, MARKS, STEEL_FINISHES, WOOD_FINISHES
-from tracer.inputs.photo.synth import Scene, render, site_scenes
+from tracer.inputs.photo.renders.members import corroded_section, log_section, waney_board
+from tracer.inputs.photo.renders.scenery import GROUNDS, MARKS, STEEL_FINISHES, WOOD_FINISHES
+from tracer.inputs.photo.renders.synth import Scene, render, site_scenes
 from tracer.section.shapes import angle, box, channel, i_section, rectangle, tube
 
 cv2 = pytest.importorskip("cv2")

@@ -13,8 +13,8 @@ a finish, bark, checks, marks, a cast shadow, glints, a turned light) gives the
 site look, in colour: grounds of concrete, gravel, sand, grass, wood chips or decking; end grain
 with growth rings, radial checks and a pith; bark; bright, grey, mill-scaled, rusty or painted
 steel; chalk, crayon and paint marks; side faces shaded by the light's direction and the member's
-shadow on the ground (textures in :mod:`tracer.inputs.photo.scenery`). Textures are surface only: the
-truth is the outline. :func:`site_scenes` is a named set of such scenes; :mod:`tracer.inputs.photo.members` builds
+shadow on the ground (textures in :mod:`tracer.inputs.photo.renders.scenery`). Textures are surface only: the
+truth is the outline. :func:`site_scenes` is a named set of such scenes; :mod:`tracer.inputs.photo.renders.members` builds
 irregular members (logs with bark, waney boards, corroded steel) for them. All scenes and members
 are of our own invention.
 """
@@ -26,8 +26,8 @@ from dataclasses import dataclass, field, fields
 
 import numpy as np
 
-from ...section.geometry import Section
-from .tone import to_levels, to_light
+from ....section.geometry import Section
+from ..tone import to_levels, to_light
 
 __all__ = ["Scene", "Render", "render", "site_scenes"]
 
@@ -366,7 +366,7 @@ def site_scenes() -> list[tuple[str, Scene]]:
     ``target="9x6:15mm"``) and a scale at which the section is at least 600 px across and its
     thinnest wall at least 25 px thick. Deterministic: the same list every call.
     """
-    from ...section.shapes import angle, box, channel, i_section, rectangle, round_bar, tee, tube
+    from ....section.shapes import angle, box, channel, i_section, rectangle, round_bar, tee, tube
     from .members import corroded_section, log_section, waney_board
 
     q = 0.05                                                   # chord angle [rad] of arcs
@@ -521,7 +521,7 @@ def _coverage(polys: list[np.ndarray], signs: list[int] | None, Hc: np.ndarray, 
     sub-pixel of a row (or column) of sub-pixel centres still takes that row: up to 1/4 px more
     along it (measured: +0.47 % of A for a 150 x 90 x 10 angle at 4.2 px/mm, 0.37 px off the
     grid). `mapped` polygons are in image pixels already. The site look uses
-    :func:`tracer.inputs.photo.sitelook.coverage_exact`, which has no such bias.
+    :func:`tracer.inputs.photo.renders.sitelook.coverage_exact`, which has no such bias.
     """
     import cv2
     import shapely
@@ -655,7 +655,7 @@ def _distort(img: np.ndarray, K: np.ndarray, dist: np.ndarray) -> np.ndarray:
     """The image a lens with `dist` would form: each output pixel looks up its ideal position."""
     import cv2
 
-    from .lens import undistort_points
+    from ..lens import undistort_points
 
     H, W = img.shape[:2]
     yy, xx = np.mgrid[0:H, 0:W].astype(np.float64)

@@ -1,10 +1,10 @@
-"""The site look of :func:`tracer.inputs.photo.synth.render`: colour layers composited in light.
+"""The site look of :func:`tracer.inputs.photo.renders.synth.render`: colour layers composited in light.
 
 The ground (a raster of the face's plane, a little out of focus, seen through the camera's
 homography), the member's cast shadow and glints on it, the side faces the camera sees (shaded by
 the light's direction, streaked along the member), the face (end grain with checks and pith, or
 steel), the bark, marks and glints on the face; then the light's fall-off, the sRGB encoding and
-a colour camera's noise. Textures come from :mod:`tracer.inputs.photo.scenery`; what is filled exactly
+a colour camera's noise. Textures come from :mod:`tracer.inputs.photo.renders.scenery`; what is filled exactly
 (coverage of the face, the side faces, the bark's wood) comes from the renderer's `cover`,
 which in the site look is :func:`coverage_exact`, each pixel's exact share of area. Also the
 checks of the site fields. Private to the renderer: no public names.
@@ -18,8 +18,8 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ...section.geometry import Section
-from .tone import to_levels, to_light
+from ....section.geometry import Section
+from ..tone import to_levels, to_light
 
 if TYPE_CHECKING:
     from .synth import Scene

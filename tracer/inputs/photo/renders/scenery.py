@@ -2,7 +2,7 @@
 
 Each painter fills a raster over a patch of the face's plane (a :class:`Plane`: millimetres, x
 right, y up) and returns sRGB levels 0..255 as float32 in BGR order, or a share or light layer;
-:func:`tracer.inputs.photo.synth.render` maps the rasters through the camera and composites them in light.
+:func:`tracer.inputs.photo.renders.synth.render` maps the rasters through the camera and composites them in light.
 Textures are surface only: they never move the member's outline, whose truth the renderer keeps.
 All randomness comes from the generator passed in, so a scene's seed fixes every stone, blade,
 ring and mark. The looks are our own invention, tuned by eye to what site photos commonly show
