@@ -17,7 +17,8 @@ from tracer.errors import InputError, MeasurementError
 from tracer.inputs.photo.graduation import graduation_ladder, graduation_read, pitch_check
 from tracer.inputs.photo.pipeline import measure_photo
 from tracer.inputs.photo.ruler import RULER_CLASSES, parse_pitch, parse_ruler, ruler_tolerance
-from tracer.inputs.photo.renders.synth import Scene, render
+from tracer.inputs.photo.renders.scene import Scene
+from tracer.inputs.photo.renders.synth import render
 from tracer.section.properties import section_properties
 from tracer.result import measure
 from tracer.section.shapes import channel, rectangle, tube
