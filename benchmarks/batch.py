@@ -21,7 +21,8 @@ from pathlib import Path
 
 import cv2
 
-from tracer.inputs.photo.synth import Scene, render
+from tracer.inputs.photo.renders.scene import Scene
+from tracer.inputs.photo.renders.synth import render
 from tracer.section.shapes import channel, rectangle, tube
 
 N_PHOTOS = 20

@@ -1,6 +1,6 @@
 """What a person does on the review page to mend each site render, counted in actions.
 
-An idealised person, acting on the 45 site renders of ``tracer.inputs.photo.synth.site_scenes`` (each
+An idealised person, acting on the 45 site renders of ``tracer.inputs.photo.renders.sites.site_scenes`` (each
 with its true section) through the same ``measure_photo`` the page calls:
 
 1. looks at the unattended trace;
@@ -41,7 +41,7 @@ PLACED_PX = 1.5
 
 
 def main() -> None:
-    from tracer.inputs.photo.synth import site_scenes
+    from tracer.inputs.photo.renders.sites import site_scenes
 
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--jobs", type=int, default=os.cpu_count() or 1)
@@ -67,7 +67,8 @@ def _person(index: int) -> tuple[str, str, int, list[str]]:
 
     from tracer.errors import TracerError
     from tracer.inputs.photo.pipeline import measure_photo
-    from tracer.inputs.photo.synth import render, site_scenes
+    from tracer.inputs.photo.renders.sites import site_scenes
+    from tracer.inputs.photo.renders.synth import render
     from tracer.section.properties import section_properties
     from tracer.result import measure
 

@@ -29,7 +29,8 @@ def twelve_megapixel_photo() -> Iterator[tuple[Path, object]]:
     ``target="9x6:15mm"``."""
     import cv2
 
-    from tracer.inputs.photo.synth import Scene, render
+    from tracer.inputs.photo.renders.scene import Scene
+    from tracer.inputs.photo.renders.synth import render
     from tracer.section.shapes import rectangle
 
     scene = Scene(section=rectangle(b=120.0, h=240.0, wane={"top_left": 25.0}, chord_angle=0.05).translated(60, -40),

@@ -2,7 +2,7 @@
 
 Three sets, each measured as a user would, unattended:
 
-- the 45 site renders of ``tracer.inputs.photo.synth.site_scenes`` (grounds, finishes, bark, shadows,
+- the 45 site renders of ``tracer.inputs.photo.renders.sites.site_scenes`` (grounds, finishes, bark, shadows,
   glints, side faces; a 9 x 6 target of 15 mm squares in view), against their true sections;
 - the 12 renders of the accuracy test in tests/test_photo.py (the plain look), likewise;
 - the real photos in tests/data/real-photos, with ``--dpi 25.4`` (1 px = 1 mm), against their
@@ -79,14 +79,14 @@ def _jobs(which: str, tmp: Path, seed: bool, only: str | None) -> list[dict]:
 
 def _scene_names(which: str) -> list[str]:
     if which == "site":
-        from tracer.inputs.photo.synth import site_scenes
+        from tracer.inputs.photo.renders.sites import site_scenes
 
         return [n for n, _ in site_scenes()]
     return [f"plain-{i:02d}-{n}" for i, n in enumerate(["joist", "channel", "tube", "angle"] * 3)]
 
 
 def _plain_scenes():
-    from tracer.inputs.photo.synth import Scene
+    from tracer.inputs.photo.renders.scene import Scene
     from tracer.section.shapes import angle, channel, rectangle, tube
 
     shapes = {"joist": rectangle(b=47, h=195, wane={"top_left": 16.0}, chord_angle=0.05),
@@ -119,7 +119,8 @@ def _run(job: dict) -> dict:
         path, kw = job["path"], dict(job["kw"])
         truth = _mask_moments(job["ref"]) if job["ref"] else None
     else:
-        from tracer.inputs.photo.synth import render, site_scenes
+        from tracer.inputs.photo.renders.sites import site_scenes
+        from tracer.inputs.photo.renders.synth import render
 
         scene = site_scenes()[job["index"]][1] if job["kind"] == "site" else _plain_scenes()[job["index"]]
         r = render(scene)

@@ -35,7 +35,8 @@ LOT = {"target": "6x4:10mm"}
 
 
 def _render(path: Path, section, **scene) -> None:
-    from tracer.inputs.photo.synth import Scene, render
+    from tracer.inputs.photo.renders.scene import Scene
+    from tracer.inputs.photo.renders.synth import render
 
     r = render(Scene(section=section, px_per_mm=3.0, tilt=3.0, **scene))
     cv2.imwrite(str(path), r.image)

@@ -162,7 +162,7 @@ def test_a_bad_report_suffix_is_refused_before_anything_is_written(sheet, tmp_pa
 
 def test_photo_report_has_the_picture_and_the_scale_reference(tmp_path):
     from tracer.inputs.photo.pipeline import measure_photo
-    from tracer.inputs.photo.samples import sample_settings
+    from tracer.inputs.photo.renders.samples import sample_settings
     from tracer.outputs.report import report_html, report_pdf
     from tracer.result import measure
 

@@ -306,8 +306,9 @@ def test_cli_bad_input_is_exit_2_with_a_message(channel, args, message):
 # -- a batch's members -------------------------------------------------------------------------------
 
 def _site_render(folder: Path, name: str) -> tuple[Path, tuple[float, float], dict]:
-    """A site render of tracer.inputs.photo.synth (an invented member on an invented ground) and its truth."""
-    from tracer.inputs.photo.synth import render, site_scenes
+    """A site render of tracer.inputs.photo.renders.synth (an invented member on an invented ground) and its truth."""
+    from tracer.inputs.photo.renders.sites import site_scenes
+    from tracer.inputs.photo.renders.synth import render
     from tracer.section.properties import section_properties
 
     scene = dict(site_scenes())[name]
@@ -476,7 +477,8 @@ def test_the_page_draws_an_outline_by_clicks_with_the_allowance_of_its_zoom(tmp_
     import shapely
 
     path, member, truth = _site_render(tmp_path, "joist-concrete")
-    from tracer.inputs.photo.synth import render, site_scenes
+    from tracer.inputs.photo.renders.sites import site_scenes
+    from tracer.inputs.photo.renders.synth import render
 
     r = render(dict(site_scenes())["joist-concrete"])
     # The true outline in pixels by the renderer's own homography (a site scene's maps the
@@ -519,7 +521,8 @@ def test_the_page_draws_a_tube_with_two_rims_of_five_clicks(tmp_path):
     from selenium.webdriver.common.action_chains import ActionChains
     from selenium.webdriver.common.actions.wheel_input import ScrollOrigin
 
-    from tracer.inputs.photo.synth import render, site_scenes
+    from tracer.inputs.photo.renders.sites import site_scenes
+    from tracer.inputs.photo.renders.synth import render
 
     path, member, truth = _site_render(tmp_path, "tube-sand")
     r = render(dict(site_scenes())["tube-sand"])

@@ -31,7 +31,7 @@ def add_parser(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
 def demo_command(args: argparse.Namespace) -> int:
     """Run ``tracer demo``: list the samples, or measure one through ``tracer measure``'s own parser;
     returns the exit status."""
-    from ..inputs.photo.samples import sample_names, sample_settings
+    from ..inputs.photo.renders.samples import sample_names, sample_settings
     from .main import build_parser             # here, not above: main imports this module
 
     names = sample_names()

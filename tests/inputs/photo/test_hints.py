@@ -13,7 +13,8 @@ from tracer.errors import InputError, MeasurementError
 from tracer.inputs.photo.hints import Hints, make_hints, parse_box, parse_points
 from tracer.inputs.photo.pipeline import measure_photo
 from tracer.inputs.photo.sidecar import read_sidecar
-from tracer.inputs.photo.synth import Scene, render
+from tracer.inputs.photo.renders.scene import Scene
+from tracer.inputs.photo.renders.synth import render
 from tracer.section.properties import section_properties
 from tracer.section.shapes import rectangle
 
@@ -180,12 +181,12 @@ def test_a_hand_boundary_placed_coarsely_carries_a_larger_allowance(tmp_path):
 
 
 def test_a_hand_boundary_off_the_photos_edge_is_flagged_and_one_on_it_is_not(tmp_path):
-    # A site render of an irregular log on grass (tracer.inputs.photo.synth, an invented member): its
+    # A site render of an irregular log on grass (tracer.inputs.photo.renders.synth, an invented member): its
     # true outline, mapped by the renderer's homography, lies on the photo's edge; an ellipse
     # through five points of it (a round rim drawn round an irregular log) strays off it.
     import shapely
 
-    from tracer.inputs.photo.synth import site_scenes
+    from tracer.inputs.photo.renders.sites import site_scenes
 
     r = render(dict(site_scenes())["log-grass"])
     p = tmp_path / "log.jpg"

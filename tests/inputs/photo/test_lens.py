@@ -17,7 +17,8 @@ import pytest
 from tracer.errors import InputError, MeasurementError
 from tracer.inputs.photo.lens import LensProfile, calibrate, profile_json, read_profile, undistort_points
 from tracer.inputs.photo.pipeline import measure_photo
-from tracer.inputs.photo.synth import Scene, render
+from tracer.inputs.photo.renders.scene import Scene
+from tracer.inputs.photo.renders.synth import render
 from tracer.inputs.photo.view import camera_view, side_faces
 from tracer.section.properties import section_properties
 from tracer.result import measure

@@ -14,7 +14,8 @@ from tracer.errors import InputError, MeasurementError
 from tracer.section.geometry import Section
 from tracer.inputs.photo.load import load_photo
 from tracer.inputs.photo.pipeline import measure_photo
-from tracer.inputs.photo.synth import Scene, render
+from tracer.inputs.photo.renders.scene import Scene
+from tracer.inputs.photo.renders.synth import render
 from tracer.section.properties import section_properties
 from tracer.result import measure
 from tracer.section.shapes import angle, channel, rectangle, tube

@@ -14,10 +14,11 @@ import numpy as np
 import pytest
 
 from tracer.errors import InputError, MeasurementError
-from tracer.inputs.photo.graduation import graduation_ladder, graduation_read
+from tracer.inputs.photo.graduation import graduation_ladder, graduation_read, pitch_check
 from tracer.inputs.photo.pipeline import measure_photo
-from tracer.inputs.photo.ruler import RULER_CLASSES, parse_pitch, parse_ruler, pitch_check, ruler_tolerance
-from tracer.inputs.photo.synth import Scene, render
+from tracer.inputs.photo.ruler import RULER_CLASSES, parse_pitch, parse_ruler, ruler_tolerance
+from tracer.inputs.photo.renders.scene import Scene
+from tracer.inputs.photo.renders.synth import render
 from tracer.section.properties import section_properties
 from tracer.result import measure
 from tracer.section.shapes import channel, rectangle, tube

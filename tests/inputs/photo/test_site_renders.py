@@ -1,4 +1,4 @@
-"""The photo path on the 45 site renders of ``tracer.inputs.photo.synth.site_scenes`` (invented members on
+"""The photo path on the 45 site renders of ``tracer.inputs.photo.renders.sites.site_scenes`` (invented members on
 invented grounds, each with its true section), measured unattended as a user would.
 
 Truth: each render's own section, integrated by tracer.section.properties (itself checked against
@@ -18,7 +18,8 @@ import pytest
 
 from tracer.errors import TracerError
 from tracer.inputs.photo.pipeline import measure_photo
-from tracer.inputs.photo.synth import render, site_scenes
+from tracer.inputs.photo.renders.sites import site_scenes
+from tracer.inputs.photo.renders.synth import render
 from tracer.section.properties import section_properties
 from tracer.result import measure
 

@@ -19,9 +19,12 @@ import pytest
 import shapely
 
 from tracer.section.geometry import Section
-from tracer.inputs.photo.members import corroded_section, log_section, waney_board
-from tracer.inputs.photo.scenery import GROUNDS, MARKS, STEEL_FINISHES, WOOD_FINISHES
-from tracer.inputs.photo.synth import Scene, render, site_scenes
+from tracer.inputs.photo.renders.grounds import GROUNDS
+from tracer.inputs.photo.renders.members import corroded_section, log_section, waney_board
+from tracer.inputs.photo.renders.scene import Scene
+from tracer.inputs.photo.renders.scenery import MARKS, STEEL_FINISHES, WOOD_FINISHES
+from tracer.inputs.photo.renders.sites import site_scenes
+from tracer.inputs.photo.renders.synth import render
 from tracer.section.shapes import angle, box, channel, i_section, rectangle, tube
 
 cv2 = pytest.importorskip("cv2")

@@ -25,7 +25,8 @@ def test_thin_walls_of_a_blurred_srgb_photo_are_traced_in_light(member, tmp_path
     # still did so); traced in light, the photo pipeline's aim holds: |error| of A <= 0.3 %.
     cv2 = pytest.importorskip("cv2")
     from tracer.inputs.photo.pipeline import measure_photo
-    from tracer.inputs.photo.synth import Scene, render
+    from tracer.inputs.photo.renders.scene import Scene
+    from tracer.inputs.photo.renders.synth import render
     from tracer.section.properties import section_properties
     from tracer.section.shapes import box
 

@@ -3,8 +3,8 @@
 A rule's marks come in levels (common practice): a metric rule marks every millimetre (or half
 millimetre), longer every 5th, longest every 10th (the centimetres); an inch rule halves the inch
 again and again (1/2, 1/4, 1/8, 1/16, 1/32 in), each level's marks longer than the next finer
-level's, the inches longest. :mod:`tracer.inputs.photo.ruler` reads the finest marks the photo resolves
-and counts, in ticks read, where each level of longer marks falls. This module says what that
+level's, the inches longest. :mod:`tracer.inputs.photo.ruler_read` reads the finest marks the photo
+resolves and counts, in ticks read, where each level of longer marks falls. This module says what that
 pattern means for the rule named by ``--pitch`` (its finest graduation):
 
 - read at the pitch, the longer marks must fall as that rule has them (:func:`pitch_check`);

@@ -410,7 +410,9 @@ def _perspective_allowance(plane: PlaneMap, trace: Trace, photo: Photo, max_tilt
 
 def _read_ruler(photo: Photo, ruler: str, pitch: str | None, ruler_class: str) -> tuple[list["RulerReading"], float]:
     """Find the ruler (and a second one square to it) or follow the one given, and read them."""
-    from .ruler import find_rulers, parse_pitch, parse_ruler, read_ruler, ruler_tolerance
+    from .ruler import parse_pitch, parse_ruler, ruler_tolerance
+    from .ruler_find import find_rulers
+    from .ruler_read import read_ruler
 
     pitch_mm = parse_pitch(pitch or "1mm")
     ruler_tolerance(pitch_mm, 100.0, ruler_class)            # an unknown class is refused here

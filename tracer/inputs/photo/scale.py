@@ -9,9 +9,9 @@ uncertainty adds, and a record for the result's ``source.scale``.
 - two image points a known distance apart (``--scale``): a similarity, with an allowance for an
   unknown tilt (a one-sided cosine error) and for where the points were clicked;
 - a scanner's resolution (``--dpi``);
-- a ruler in view (``--ruler``), read by :mod:`tracer.inputs.photo.ruler`: a similarity with the local
-  period of its graduation where the member lies, the fit's and the rule's own tolerance, and the
-  allowances for the tilt across it.
+- a ruler in view (``--ruler``), read by :mod:`tracer.inputs.photo.ruler_read`: a similarity with
+  the local period of its graduation where the member lies, the fit's and the rule's own tolerance,
+  and the allowances for the tilt across it.
 
 With a lens profile (:mod:`tracer.inputs.photo.lens`) the map first undistorts the points it is given,
 so H acts on ideal (distortion-free) pixel positions; points are never moved otherwise.

@@ -2,7 +2,7 @@
 
 Each ``NAME.jpg`` in ``tracer/sample_images/`` has a sidecar ``NAME.toml`` that records how it
 should be measured (the options of ``tracer measure``), that it is synthetic, and the true
-properties of the rendered section. ``python -m tracer.inputs.photo.samples`` writes them anew.
+properties of the rendered section. ``python -m tracer.inputs.photo.renders.samples`` writes them anew.
 """
 
 from __future__ import annotations
@@ -13,7 +13,7 @@ from pathlib import Path
 __all__ = ["SAMPLES_DIR", "sample_names", "sample_settings", "write_samples"]
 
 #: Where the sample photos live, inside the installed package.
-SAMPLES_DIR = Path(__file__).resolve().parents[2] / "sample_images"
+SAMPLES_DIR = Path(__file__).resolve().parents[3] / "sample_images"
 _OPTIONS = ("target", "scale", "dpi", "seed", "max_tilt", "texture")
 
 
@@ -33,10 +33,11 @@ def write_samples(folder: Path = SAMPLES_DIR) -> list[Path]:
     """Render the sample scenes (all invented) and write each photo and its sidecar."""
     import cv2
 
-    from ...section.geometry import Section
-    from ...section.properties import section_properties
-    from ...section.shapes import channel, rectangle, tube
-    from .synth import Scene, render
+    from ....section.geometry import Section
+    from ....section.properties import section_properties
+    from ....section.shapes import channel, rectangle, tube
+    from .scene import Scene
+    from .synth import render
 
     pitted = channel(h=152.0, b=76.0, tw=6.4, tf=9.0, r=8.0, chord_angle=0.05)
     pitted = Section.from_shapely(pitted.to_shapely().difference(
@@ -62,7 +63,8 @@ def write_samples(folder: Path = SAMPLES_DIR) -> list[Path]:
         cv2.imwrite(str(path), r.image, [cv2.IMWRITE_JPEG_QUALITY, 92])
         p = section_properties(r.section)
         cols, rows, sq = scene.target
-        side = (f"# {what}.\n# Written by python -m tracer.inputs.photo.samples; the truth below is the rendered section.\n"
+        side = (f"# {what}.\n# Written by python -m tracer.inputs.photo.renders.samples; "
+                "the truth below is the rendered section.\n"
                 f'name = "{name} (synthetic)"\ntarget = "{cols}x{rows}:{sq:g}mm"\n\n[truth]\n'
                 f"A = {p.A!r}      # mm^2\nI1 = {p.I1!r}     # mm^4\nI2 = {p.I2!r}     # mm^4\n")
         path.with_suffix(".toml").write_text(side)

@@ -1,7 +1,7 @@
 """Irregular members for synthetic photos: logs with bark, waney-edged boards, corroded steel.
 
 Each builder returns :class:`~tracer.section.geometry.Section` objects made from numpy outlines, in mm
-with x right and y up, for :func:`tracer.inputs.photo.synth.render` to draw (a log or a board with bark
+with x right and y up, for :func:`tracer.inputs.photo.renders.synth.render` to draw (a log or a board with bark
 also returns the wood inside the bark, for ``Scene.under_bark``). Shapes are random but fixed
 by their seed. All of them are invented members, not records of real ones.
 """
@@ -12,7 +12,7 @@ import math
 
 import numpy as np
 
-from ...section.geometry import Section
+from ....section.geometry import Section
 
 __all__ = ["log_section", "waney_board", "corroded_section"]
 

@@ -1,28 +1,26 @@
-"""The site look of :func:`tracer.inputs.photo.synth.render`: colour layers composited in light.
+"""The site look of :func:`tracer.inputs.photo.renders.synth.render`: colour layers composited in light.
 
 The ground (a raster of the face's plane, a little out of focus, seen through the camera's
 homography), the member's cast shadow and glints on it, the side faces the camera sees (shaded by
 the light's direction, streaked along the member), the face (end grain with checks and pith, or
 steel), the bark, marks and glints on the face; then the light's fall-off, the sRGB encoding and
-a colour camera's noise. Textures come from :mod:`tracer.inputs.photo.scenery`; what is filled exactly
-(coverage of the face, the side faces, the bark's wood) comes from the renderer's `cover`,
-which in the site look is :func:`coverage_exact`, each pixel's exact share of area. Also the
-checks of the site fields. Private to the renderer: no public names.
+a colour camera's noise. Textures come from :mod:`tracer.inputs.photo.renders.grounds` and
+:mod:`tracer.inputs.photo.renders.scenery`; what is filled exactly (coverage of the face, the side
+faces, the bark's wood) comes from the renderer's `cover`, which in the site look is
+:func:`coverage_exact`, each pixel's exact share of area. Also the checks of the site fields.
+Private to the renderer: no public names.
 """
 
 from __future__ import annotations
 
 import math
 import zlib
-from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ...section.geometry import Section
-from .tone import to_levels, to_light
-
-if TYPE_CHECKING:
-    from .synth import Scene
+from ....section.geometry import Section
+from ..tone import to_levels, to_light
+from .scene import Scene
 
 __all__: list[str] = []
 
@@ -39,7 +37,8 @@ _LEVELS_TABLE = (to_levels(np.arange(65536, dtype=np.float32) / 65535) * 255.0).
 
 def check_site(scene: Scene) -> None:
     """Refuse site fields out of range or not fitting the member, with what to give instead."""
-    from .scenery import GROUNDS, MARKS, STEEL_FINISHES, WOOD_FINISHES
+    from .grounds import GROUNDS
+    from .scenery import MARKS, STEEL_FINISHES, WOOD_FINISHES
 
     if scene.member not in ("timber", "steel"):
         raise ValueError(f"member = {scene.member!r}; use 'timber' or 'steel'")
@@ -159,7 +158,7 @@ def site_layers(scene: Scene, P: np.ndarray, Hc: np.ndarray, size: tuple[int, in
     (H, W, 3), the face's coverage and the union of what is not open ground (member, side
     faces, shadow).
     """
-    from . import scenery
+    from . import grounds, scenery
 
     H, W = size
     timber = scene.member == "timber"
@@ -168,7 +167,7 @@ def site_layers(scene: Scene, P: np.ndarray, Hc: np.ndarray, size: tuple[int, in
     ppm = _image_scale(Hc, size)
     gplane = scenery.Plane.over(*_footprint(Hc, size), 0.75 * ppm)   # the ground lies a little out of focus
     ground = scene.ground or ("dark floor" if timber else "light card")
-    glight = light(scenery.ground_levels(ground, gplane, _stream(scene.seed, "ground"), light_from=scene.light_from))
+    glight = light(grounds.ground_levels(ground, gplane, _stream(scene.seed, "ground"), light_from=scene.light_from))
     busy = np.zeros((H, W), np.float32)
     ground_map = Hc @ gplane.matrix()
     if sec is not None and scene.shadow > 0:
