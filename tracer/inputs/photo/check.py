@@ -36,8 +36,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .contour import Trace
 from .choice import neighbours
+from .contour import Trace
 from .regions import nearer_model
 from .segment import Segmentation
 
@@ -183,8 +183,6 @@ def _outside_not_ground(seg: Segmentation, trace: Trace) -> float:
     """The share of the outer outline (its normals, evened over about 15 of them) where the
     photo a little outside the edge (6 working pixels out) has a look that is rare in the
     photo's border strip, the ground, and is not of the ground's chromaticity (shade)."""
-    import cv2
-
     prof = trace.profiles[0]
     if prof.normals is None or not len(prof.points):
         return 0.0

@@ -22,7 +22,7 @@ from .bark import find_bark
 from .check import TraceCheck, check_hand, check_trace
 from .contour import Trace, coarser_section, hand_trace, on_the_edge, trace_boundary
 from .graduation import graduation_read
-from .hints import Hints, make_hints
+from .hints import make_hints
 from .lens import LensProfile, read_profile
 from .load import PHOTO_SUFFIXES, Photo, load_photo
 from .ruler import MIN_TICKS, RulerReading
