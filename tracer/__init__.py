@@ -7,14 +7,14 @@ from ._version import __version__
 
 from .errors import (GeometryError, InputError, MeasurementError, ShapeError, SheetError, TracerError,
                      UnitError)
-from .section.geometry import Part, Section
+from .inputs.sheet import parse_sheet, read_sheet, sheet_text, write_sheet
 from .measurement import Measurement
+from .result import Result, measure, result_json
+from .section.geometry import Part, Section
 from .section.properties import (PROPERTY_KEYS, PROPERTY_NAMES, Moments, Properties, area_moments, plastic_moduli,
                          section_properties)
-from .result import Result, measure, result_json
 from .section.shapes import (ALPHA_MAX, SHAPE_KINDS, angle, arc_points, box, channel, i_section, make_shape, rectangle,
                      round_bar, tee, tube)
-from .inputs.sheet import parse_sheet, read_sheet, sheet_text, write_sheet
 from .section.stations import stations_section
 from .torsion import TORSION_KEYS, Torsion, evaluate_torsion, torsion_properties
 from .uncertainty import (BoundaryOffset, ErrorModel, HomographyError, PointNoise, Readings, ScaleError,

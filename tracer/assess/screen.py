@@ -11,12 +11,12 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from .beams import SUPPORTS, longest_span, max_deflection, max_moment
 from ..errors import InputError
-from .materials import Material
 from ..measurement import Measurement
 from ..section.properties import Properties, section_properties
 from ..uncertainty import DEFAULT_SEED
+from .beams import SUPPORTS, longest_span, max_deflection, max_moment
+from .materials import Material
 from .shared import ASSESS_CAUTIONS, json_head, percentile_with_u, props_rows, quantity, section_draws
 
 __all__ = ["CHECK_KEYS", "CHECK_UNITS", "GRAVITY", "Screen", "screen_capacity", "screen_json",

@@ -8,11 +8,11 @@ from __future__ import annotations
 
 import math
 
+from ..outputs.table import _columns, format_measured, format_value
+from .beams import SUPPORTS
 from .loss import LOSS_KEYS, Comparison
 from .screen import CHECK_KEYS, CHECK_UNITS, Screen
 from .shared import ASSESS_CAUTIONS
-from .beams import SUPPORTS
-from ..outputs.table import _columns, format_measured, format_value
 
 __all__ = ["format_screen", "format_comparison", "format_fit", "cell", "caution_lines"]
 

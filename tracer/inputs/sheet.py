@@ -20,8 +20,8 @@ from typing import Any
 
 from ..errors import GeometryError, ShapeError, SheetError
 from ..files import read_input, sha256_of, write_atomic
-from ..section.geometry import Section
 from ..measurement import Measurement
+from ..section.geometry import Section
 from ..section.shapes import CORNERS, SHAPE_KINDS, article, make_shape
 from ..section.stations import stations_jacobian, stations_section
 from ..uncertainty import (ErrorModel, PointNoise, Readings, ScaleError, affine_jacobian,

@@ -25,8 +25,8 @@ from pathlib import Path
 import numpy as np
 
 from ..errors import InputError
-from ..section.geometry import Section
 from ..result import Result, result_json
+from ..section.geometry import Section
 from ..units import OUTPUT_UNITS, mm_per
 
 __all__ = ["EXPORT_FORMATS", "export_format", "export_bytes", "section_svg", "section_dxf", "section_csv",

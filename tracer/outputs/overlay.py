@@ -13,8 +13,8 @@ from pathlib import Path
 import numpy as np
 
 from ..files import write_atomic_bytes
-from ..section.properties import Properties
 from ..inputs.photo.pipeline import PhotoMeasurement
+from ..section.properties import Properties
 
 __all__ = ["overlay_image", "overlay_bytes", "write_overlay"]
 

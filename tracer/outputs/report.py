@@ -24,10 +24,10 @@ from typing import Any
 
 from .._version import __version__
 from ..errors import InputError
-from ..section.properties import PROPERTY_NAMES
 from ..result import CAUTION, Result
-from .table import budget_rows, describe_geometry, format_measured, format_value
+from ..section.properties import PROPERTY_NAMES
 from ..units import from_mm, property_unit
+from .table import budget_rows, describe_geometry, format_measured, format_value
 
 __all__ = ["REPORT_FORMATS", "CAUTIONS", "report_format", "report_bytes", "report_html", "report_pdf",
            "report_content", "ReportContent", "pdf_page_count"]

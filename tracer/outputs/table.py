@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import math
 
-from ..section.properties import PROPERTY_NAMES
 from ..result import CAUTION, Result
+from ..section.properties import PROPERTY_NAMES
 from ..units import from_mm, property_unit
 
 __all__ = ["format_table", "format_value", "format_measured", "format_uncertainty", "budget_rows",

@@ -37,8 +37,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..section.geometry import Section, trusted_geometry
-from .mesh import Mesh, triangulate
 from ..section.properties import section_properties
+from .mesh import Mesh, triangulate
 
 __all__ = ["Torsion", "TORSION_KEYS", "TORSION_DRAWS", "torsion_properties", "TorsionModel", "TorsionUncertainty",
            "evaluate_torsion"]
